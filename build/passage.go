@@ -1,0 +1,17 @@
+package build
+
+// Passage is one retrievable unit of text: a section of a document, or part
+// of one, within the token budget.
+type Passage struct {
+	ID      string   `json:"id"`               // stable: survives edits elsewhere in the document
+	Path    string   `json:"path"`             // source file, slash-separated, relative to the root
+	Anchor  string   `json:"anchor,omitempty"` // fragment of the section, without '#'
+	Title   string   `json:"title"`            // document title
+	Heading []string `json:"heading"`          // heading trail, outermost first
+	Text    string   `json:"text"`             // normalised body text; code kept verbatim
+	Line    int      `json:"line"`             // first source line, 1-based
+	EndLine int      `json:"end_line"`         // last source line
+	Tokens  int      `json:"tokens"`           // BPE tokens in Text
+	Hash    string   `json:"hash"`             // SHA-256 (hex) of Text
+	Split   bool     `json:"split,omitempty"`  // a block over the budget was cut at line boundaries
+}
