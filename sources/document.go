@@ -1,6 +1,7 @@
 package sources
 
 import (
+	"bytes"
 	"fmt"
 	"sort"
 	"time"
@@ -127,13 +128,15 @@ type LineIndex []int // offsets at which each line starts
 
 // NewLineIndex indexes the line starts of src.
 func NewLineIndex(src []byte) LineIndex {
-	idx := LineIndex{0}
-	for i, c := range src {
-		if c == '\n' {
-			idx = append(idx, i+1)
+	idx := make(LineIndex, 1, 1+len(src)/40)
+	for off := 0; ; {
+		i := bytes.IndexByte(src[off:], '\n')
+		if i < 0 {
+			return idx
 		}
+		off += i + 1
+		idx = append(idx, off)
 	}
-	return idx
 }
 
 // Line returns the 1-based line holding byte offset off.

@@ -56,8 +56,13 @@ func Parse(name string, src []byte) (doc *Document, err error) {
 	switch kind {
 	case HTML:
 		err = parseHTML(doc, src)
+	case Markdown:
+		if looksLikeMDX(src) {
+			doc.Kind = MDX
+		}
+		err = parseMarkdown(doc, src, doc.Kind == MDX)
 	default:
-		err = parseMarkdown(doc, src, kind == MDX)
+		err = parseMarkdown(doc, src, true)
 	}
 	if err != nil {
 		return nil, err
@@ -107,4 +112,41 @@ func replaceInvalidUTF8(src []byte) []byte {
 		i += n
 	}
 	return out
+}
+
+// looksLikeMDX reports whether a file named .md is really MDX, as some
+// sites write it (the Next.js docs put {/* comments */} and <Components> in
+// .md files): outside fenced code, a line starts with a JSX comment, a
+// capitalised JSX tag, or an ES module import with a "from" clause. Plain
+// Markdown almost never starts a line with any of these.
+func looksLikeMDX(src []byte) bool {
+	var fence codeFence
+	for len(src) > 0 {
+		line := src
+		if i := bytes.IndexByte(src, '\n'); i >= 0 {
+			line, src = src[:i], src[i+1:]
+		} else {
+			src = nil
+		}
+		if fence.char != 0 {
+			if fence.closes(line) {
+				fence = codeFence{}
+			}
+			continue
+		}
+		if f, ok := openFence(line); ok {
+			fence = f
+			continue
+		}
+		t := bytes.TrimLeft(line, " \t")
+		switch {
+		case bytes.HasPrefix(t, []byte("{/*")):
+			return true
+		case len(t) > 1 && t[0] == '<' && 'A' <= t[1] && t[1] <= 'Z':
+			return true
+		case bytes.HasPrefix(line, []byte("import ")) && bytes.Contains(line, []byte(" from ")):
+			return true
+		}
+	}
+	return false
 }

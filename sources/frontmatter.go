@@ -1,0 +1,269 @@
+package sources
+
+import (
+	"bytes"
+	"fmt"
+	"math"
+	"sort"
+	"strconv"
+	"strings"
+	"time"
+
+	"github.com/adrg/frontmatter"
+)
+
+// utf8BOM is the byte order mark some editors put at the start of a file.
+const utf8BOM = "\xEF\xBB\xBF"
+
+// SplitFrontMatter finds a front matter block at the start of src, the file
+// at name, and decodes it. A block opens with a line holding only "---"
+// (YAML) or "+++" (TOML) on the first line of the file (after an optional
+// UTF-8 byte order mark) and closes with the next line holding only the
+// same delimiter; white space around a delimiter is allowed, as
+// github.com/adrg/frontmatter allows it.
+//
+// It returns the decoded keys (nil when there are none), the format
+// ("yaml", "toml" or "" when there is no block) and bodyStart, the byte
+// offset where the Markdown body begins. Nested maps are map[string]any,
+// dates are RFC 3339 strings and every value can be encoded as JSON.
+//
+// A block that cannot be used gives a *Error positioned on a line of src
+// (YAML and TOML line numbers are shifted by the line where the block
+// starts). The error is a warning: bodyStart is still valid. A block that
+// is never closed is not front matter at all, so format is "" and bodyStart
+// points at the start of the file. SplitFrontMatter never panics.
+func SplitFrontMatter(name string, src []byte) (front map[string]any, format string, bodyStart int, err error) {
+	start := 0
+	if bytes.HasPrefix(src, []byte(utf8BOM)) {
+		start = len(utf8BOM)
+	}
+	line, next := lineAt(src, start)
+	var delim string
+	switch string(bytes.TrimSpace(line)) {
+	case "---":
+		delim, format = "---", "yaml"
+	case "+++":
+		delim, format = "+++", "toml"
+	default:
+		return nil, "", start, nil
+	}
+	if next == len(src) && !bytes.HasSuffix(line, []byte("\n")) {
+		// A lone delimiter with nothing after it: a thematic break.
+		return nil, "", start, nil
+	}
+	// Find the closing delimiter line.
+	end := -1
+	for off := next; off < len(src); {
+		l, n := lineAt(src, off)
+		if string(bytes.TrimSpace(l)) == delim {
+			end = n
+			break
+		}
+		off = n
+	}
+	if end < 0 {
+		return nil, "", start, &Error{Path: name, Line: 1,
+			Msg: fmt.Sprintf("front matter: no closing %s line; the whole file is read as body", delim)}
+	}
+	front, err = decodeFrontMatter(name, src[start:end], format)
+	return front, format, end, err
+}
+
+// lineAt returns the line of src starting at off, newline included, and
+// the offset of the next line.
+func lineAt(src []byte, off int) ([]byte, int) {
+	i := bytes.IndexByte(src[off:], '\n')
+	if i < 0 {
+		return src[off:], len(src)
+	}
+	return src[off : off+i+1], off + i + 1
+}
+
+// decodeFrontMatter decodes block, which holds the opening delimiter line,
+// the front matter and the closing delimiter line, with the frontmatter
+// library. Its first line is line 1 of the file.
+func decodeFrontMatter(name string, block []byte, format string) (front map[string]any, err error) {
+	defer func() {
+		// yaml.v2 and BurntSushi/toml v0.3.1 report some bad input by
+		// panicking; a bad front matter block must cost a warning only.
+		if r := recover(); r != nil {
+			front, err = nil, &Error{Path: name, Line: 1, Msg: fmt.Sprintf("front matter: %s decoder failed: %v", strings.ToUpper(format), r)}
+		}
+	}()
+	var v any
+	// The block starts with its delimiter line, so the library's default
+	// formats pick YAML for "---" and TOML for "+++".
+	if _, perr := frontmatter.Parse(bytes.NewReader(block), &v); perr != nil {
+		line, msg := decodeErrorLine(perr.Error(), format)
+		// The data the decoders see starts on line 2 of the file (line 1
+		// is the opening delimiter), so their line N is file line N+1.
+		// yaml.v2 v2.3.0 leaves the line out when its 0-based mark line
+		// is 0 (decode.go, parser.fail), that is for an error on the
+		// first line, and for errors without a position (an unknown
+		// anchor); both are put on the first line of the block.
+		line = max(line, 1) + 1
+		return nil, &Error{Path: name, Line: line, Msg: "front matter: invalid " + strings.ToUpper(format) + ": " + tidyMessage(msg), Err: perr}
+	}
+	if v == nil {
+		return nil, nil
+	}
+	m, ok := normaliseFront(v).(map[string]any)
+	if !ok {
+		return nil, &Error{Path: name, Line: 2, Msg: fmt.Sprintf("front matter: want key: value pairs, found %s", describeValue(v))}
+	}
+	if len(m) == 0 {
+		return nil, nil
+	}
+	return m, nil
+}
+
+// decodeErrorLine takes the line number out of a decoder's message:
+// yaml.v2 writes "yaml: line 3: message" (or "yaml: unmarshal errors:\n
+// line 3: message"), BurntSushi/toml v0.3.1 writes "Near line 3 (last key
+// parsed 'k'): message". Line is 0 when the message has none.
+func decodeErrorLine(s, format string) (line int, msg string) {
+	if i := strings.IndexByte(s, '\n'); i >= 0 && format == "yaml" {
+		// unmarshal errors: keep the first one.
+		s = strings.TrimSpace(s[i+1:])
+		if j := strings.IndexByte(s, '\n'); j >= 0 {
+			s = s[:j]
+		}
+	}
+	s = strings.TrimPrefix(s, "yaml: ")
+	switch {
+	case strings.HasPrefix(s, "line "):
+		rest := s[len("line "):]
+		if i := strings.Index(rest, ": "); i > 0 {
+			if n, err := strconv.Atoi(rest[:i]); err == nil {
+				return n, rest[i+2:]
+			}
+		}
+	case strings.HasPrefix(s, "Near line "):
+		rest := s[len("Near line "):]
+		i := strings.IndexByte(rest, ' ')
+		j := strings.Index(rest, "): ")
+		if i > 0 && j > i {
+			if n, err := strconv.Atoi(rest[:i]); err == nil {
+				return n, rest[j+3:]
+			}
+		}
+	}
+	return 0, s
+}
+
+// tidyMessage makes a decoder's message fit ours: lower-case start (unless
+// the first word is an acronym), no full stop.
+func tidyMessage(s string) string {
+	s = strings.TrimSuffix(strings.TrimSpace(s), ".")
+	if len(s) > 1 && 'A' <= s[0] && s[0] <= 'Z' && 'a' <= s[1] && s[1] <= 'z' {
+		s = string(s[0]+'a'-'A') + s[1:]
+	}
+	return s
+}
+
+func describeValue(v any) string {
+	switch v.(type) {
+	case []any:
+		return "a list"
+	case string:
+		return "a string"
+	}
+	return fmt.Sprintf("a %T value", v)
+}
+
+// normaliseFront turns what the decoders give into plain JSON-friendly
+// data: maps keyed by strings (yaml.v2 gives map[interface{}]interface{}),
+// []any lists, dates as RFC 3339 strings (yaml.v2 already keeps dates as
+// strings when decoding into interface{}; TOML gives time.Time), and
+// non-finite floats, which JSON cannot hold, as YAML's spellings.
+func normaliseFront(v any) any {
+	switch x := v.(type) {
+	case map[string]any:
+		m := make(map[string]any, len(x))
+		for k, val := range x {
+			m[k] = normaliseFront(val)
+		}
+		return m
+	case map[any]any:
+		// Keys such as 1 and "1" both become "1": take them in a fixed
+		// order (string keys first) so the result does not depend on map
+		// iteration order.
+		type kv struct {
+			s     string
+			isStr bool
+			v     any
+		}
+		kvs := make([]kv, 0, len(x))
+		for k, val := range x {
+			s, isStr := k.(string)
+			if !isStr {
+				s = scalarString(k)
+			}
+			kvs = append(kvs, kv{s, isStr, val})
+		}
+		sort.Slice(kvs, func(i, j int) bool {
+			if kvs[i].s != kvs[j].s {
+				return kvs[i].s < kvs[j].s
+			}
+			if kvs[i].isStr != kvs[j].isStr {
+				return kvs[i].isStr
+			}
+			return fmt.Sprintf("%T", kvs[i].v) < fmt.Sprintf("%T", kvs[j].v)
+		})
+		m := make(map[string]any, len(kvs))
+		for _, e := range kvs {
+			if _, dup := m[e.s]; !dup {
+				m[e.s] = normaliseFront(e.v)
+			}
+		}
+		return m
+	case []any:
+		out := make([]any, len(x))
+		for i, e := range x {
+			out[i] = normaliseFront(e)
+		}
+		return out
+	case []map[string]any:
+		out := make([]any, len(x))
+		for i, e := range x {
+			out[i] = normaliseFront(e)
+		}
+		return out
+	case float64:
+		return finite(x)
+	case float32:
+		return finite(float64(x))
+	case time.Time:
+		return x.Format(time.RFC3339Nano)
+	case []byte:
+		return string(x)
+	case nil, string, bool, int, int64, int32, uint, uint64, uint32:
+		return x
+	}
+	return scalarString(v)
+}
+
+func finite(f float64) any {
+	switch {
+	case math.IsNaN(f):
+		return ".nan"
+	case math.IsInf(f, 1):
+		return ".inf"
+	case math.IsInf(f, -1):
+		return "-.inf"
+	}
+	return f
+}
+
+// scalarString spells a map key or odd value as text.
+func scalarString(v any) string {
+	switch x := v.(type) {
+	case nil:
+		return "null"
+	case float64:
+		return strconv.FormatFloat(x, 'g', -1, 64)
+	case time.Time:
+		return x.Format(time.RFC3339Nano)
+	}
+	return fmt.Sprint(v)
+}

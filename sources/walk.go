@@ -1,0 +1,301 @@
+package sources
+
+import (
+	"errors"
+	"fmt"
+	"io"
+	"io/fs"
+	"path"
+	"sort"
+	"strings"
+	"time"
+)
+
+// DefaultMaxSize is the largest file Walk accepts unless told otherwise:
+// 10 MB, far above any hand-written page, small enough that a stray data
+// dump does not swamp the build.
+const DefaultMaxSize = 10 << 20
+
+// maxLinkHops bounds how many symlinks one path may pass through, the same
+// bound Linux uses before it reports ELOOP (40, from path_resolution(7)).
+const maxLinkHops = 40
+
+// WalkOptions choose which files Walk returns. The zero value walks every
+// Markdown, MDX and HTML file up to DefaultMaxSize.
+type WalkOptions struct {
+	// Include, when not empty, keeps only files matching one of these
+	// globs. Exclude drops files and folders matching any of its globs.
+	// A glob without a slash matches the base name at any depth; with a
+	// slash it matches the whole slash-separated path from the root, and
+	// "**" stands for any number of folders (see Match).
+	Include, Exclude []string
+	// MaxSize is the largest file size accepted, in bytes; 0 means
+	// DefaultMaxSize.
+	MaxSize int64
+}
+
+// File is one source file found by Walk.
+type File struct {
+	Path    string    // slash-separated, relative to the root, as the user sees it
+	Target  string    // path to open in the FS; differs from Path behind a symlink
+	Size    int64     // bytes
+	ModTime time.Time // file modification time
+}
+
+// Walk lists the readable source files under the root of fsys in path
+// order. It skips hidden files and folders (a name starting with '.'),
+// follows symlinks only while they stay inside the root, and reports each
+// problem (unreadable folder, symlink loop, symlink leaving the root, file
+// over the size limit) as an *Error while it goes on with the rest.
+//
+// Symlinks are resolved only when fsys implements fs.ReadLinkFS (os.DirFS
+// does); otherwise they are followed as the FS presents them.
+func Walk(fsys fs.FS, opts WalkOptions) ([]File, []*Error) {
+	if opts.MaxSize <= 0 {
+		opts.MaxSize = DefaultMaxSize
+	}
+	w := &walker{fsys: fsys, opts: opts}
+	w.dir(".", ".", []string{"."})
+	sort.Slice(w.files, func(i, j int) bool { return w.files[i].Path < w.files[j].Path })
+	SortErrors(w.errs)
+	return w.files, w.errs
+}
+
+type walker struct {
+	fsys  fs.FS
+	opts  WalkOptions
+	files []File
+	errs  []*Error
+}
+
+func (w *walker) fail(p, format string, args ...any) {
+	w.errs = append(w.errs, &Error{Path: p, Msg: fmt.Sprintf(format, args...)})
+}
+
+// dir walks the folder target of the FS, shown to the user as shown.
+// stack holds the real paths of the folders being walked, to catch a
+// symlink that leads back into one of them.
+func (w *walker) dir(shown, target string, stack []string) {
+	entries, err := fs.ReadDir(w.fsys, target)
+	if err != nil {
+		w.fail(shown, "cannot read folder: %v", unwrapPath(err))
+		return
+	}
+	for _, e := range entries {
+		name := e.Name()
+		if strings.HasPrefix(name, ".") {
+			continue
+		}
+		p, t := join(shown, name), join(target, name)
+		mode := e.Type()
+		if mode&fs.ModeSymlink != 0 {
+			real, info, ok := w.resolve(p, t)
+			if !ok {
+				continue
+			}
+			if info.IsDir() {
+				if w.excluded(p) {
+					continue
+				}
+				if inStack(stack, real) {
+					w.fail(p, "symlink loop: leads back to %s", real)
+					continue
+				}
+				w.dir(p, real, append(stack, real))
+				continue
+			}
+			w.file(p, real, info)
+			continue
+		}
+		if e.IsDir() {
+			if w.excluded(p) {
+				continue
+			}
+			w.dir(p, t, append(stack, t))
+			continue
+		}
+		if !mode.IsRegular() {
+			continue
+		}
+		if _, ok := KindOf(name); !ok || w.excluded(p) || !w.included(p) {
+			continue
+		}
+		info, err := e.Info()
+		if err != nil {
+			w.fail(p, "cannot read: %v", unwrapPath(err))
+			continue
+		}
+		w.file(p, t, info)
+	}
+}
+
+func (w *walker) file(p, target string, info fs.FileInfo) {
+	if _, ok := KindOf(p); !ok || w.excluded(p) || !w.included(p) {
+		return
+	}
+	if !info.Mode().IsRegular() {
+		return
+	}
+	if info.Size() > w.opts.MaxSize {
+		w.fail(p, "file is %s, over the %s size limit; skipped", sizeString(info.Size()), sizeString(w.opts.MaxSize))
+		return
+	}
+	w.files = append(w.files, File{Path: p, Target: target, Size: info.Size(), ModTime: info.ModTime()})
+}
+
+// resolve follows the symlink at target (shown as p) to a path inside the
+// root. It reports false, after recording why, when the link dangles, loops
+// or leaves the root.
+func (w *walker) resolve(p, target string) (string, fs.FileInfo, bool) {
+	rl, ok := w.fsys.(fs.ReadLinkFS)
+	if !ok {
+		info, err := fs.Stat(w.fsys, target)
+		if err != nil {
+			w.fail(p, "cannot follow symlink: %v", unwrapPath(err))
+			return "", nil, false
+		}
+		return target, info, true
+	}
+	cur := target
+	for hop := 0; hop < maxLinkHops; hop++ {
+		info, err := rl.Lstat(cur)
+		if err != nil {
+			w.fail(p, "broken symlink: %v", unwrapPath(err))
+			return "", nil, false
+		}
+		if info.Mode()&fs.ModeSymlink == 0 {
+			return cur, info, true
+		}
+		dest, err := rl.ReadLink(cur)
+		if err != nil {
+			w.fail(p, "cannot read symlink: %v", unwrapPath(err))
+			return "", nil, false
+		}
+		if path.IsAbs(dest) || strings.HasPrefix(dest, "/") {
+			w.fail(p, "symlink points outside the source root (%s); not followed", dest)
+			return "", nil, false
+		}
+		next := path.Join(path.Dir(cur), dest)
+		if next == ".." || strings.HasPrefix(next, "../") {
+			w.fail(p, "symlink points outside the source root (%s); not followed", dest)
+			return "", nil, false
+		}
+		cur = next
+	}
+	w.fail(p, "symlink loop: more than %d links in a row", maxLinkHops)
+	return "", nil, false
+}
+
+func (w *walker) excluded(p string) bool {
+	for _, g := range w.opts.Exclude {
+		if Match(g, p) {
+			return true
+		}
+	}
+	return false
+}
+
+func (w *walker) included(p string) bool {
+	if len(w.opts.Include) == 0 {
+		return true
+	}
+	for _, g := range w.opts.Include {
+		if Match(g, p) {
+			return true
+		}
+	}
+	return false
+}
+
+// Match reports whether the slash-separated path p matches glob. A glob
+// without a slash is matched against the last element of p, so "*.html"
+// matches at any depth; otherwise it is matched element by element against
+// the whole path, where "**" matches any number of elements (zero
+// included) and other elements follow path.Match. A malformed glob matches
+// nothing.
+func Match(glob, p string) bool {
+	glob = strings.TrimPrefix(glob, "./")
+	if !strings.Contains(strings.TrimSuffix(glob, "/"), "/") {
+		ok, _ := path.Match(strings.TrimSuffix(glob, "/"), path.Base(p))
+		return ok
+	}
+	return matchParts(strings.Split(strings.Trim(glob, "/"), "/"), strings.Split(p, "/"))
+}
+
+func matchParts(g, p []string) bool {
+	for len(g) > 0 {
+		if g[0] == "**" {
+			for i := 0; i <= len(p); i++ {
+				if matchParts(g[1:], p[i:]) {
+					return true
+				}
+			}
+			return false
+		}
+		if len(p) == 0 {
+			return false
+		}
+		if ok, _ := path.Match(g[0], p[0]); !ok {
+			return false
+		}
+		g, p = g[1:], p[1:]
+	}
+	return len(p) == 0
+}
+
+// ReadFile reads the walked file f from fsys, refusing to read past the
+// size limit even when the file grew since it was listed.
+func ReadFile(fsys fs.FS, f File, maxSize int64) ([]byte, *Error) {
+	if maxSize <= 0 {
+		maxSize = DefaultMaxSize
+	}
+	fh, err := fsys.Open(f.Target)
+	if err != nil {
+		return nil, &Error{Path: f.Path, Msg: fmt.Sprintf("cannot read: %v", unwrapPath(err)), Err: err}
+	}
+	defer fh.Close()
+	data, err := io.ReadAll(io.LimitReader(fh, maxSize+1))
+	if err != nil {
+		return nil, &Error{Path: f.Path, Msg: fmt.Sprintf("cannot read: %v", unwrapPath(err)), Err: err}
+	}
+	if int64(len(data)) > maxSize {
+		return nil, &Error{Path: f.Path, Msg: fmt.Sprintf("file is over the %s size limit; skipped", sizeString(maxSize))}
+	}
+	return data, nil
+}
+
+func join(dir, name string) string {
+	if dir == "." {
+		return name
+	}
+	return dir + "/" + name
+}
+
+func inStack(stack []string, p string) bool {
+	for _, s := range stack {
+		if s == p {
+			return true
+		}
+	}
+	return false
+}
+
+// unwrapPath drops the operation and path that fs.PathError repeats, since
+// the message is already prefixed with the path.
+func unwrapPath(err error) error {
+	var pe *fs.PathError
+	if errors.As(err, &pe) {
+		return pe.Err
+	}
+	return err
+}
+
+func sizeString(n int64) string {
+	switch {
+	case n >= 1<<20:
+		return fmt.Sprintf("%.1f MB", float64(n)/(1<<20))
+	case n >= 1<<10:
+		return fmt.Sprintf("%.1f kB", float64(n)/(1<<10))
+	}
+	return fmt.Sprintf("%d bytes", n)
+}

@@ -1,0 +1,175 @@
+package sources
+
+import (
+	"os"
+	"path/filepath"
+	"reflect"
+	"strings"
+	"testing"
+	"testing/fstest"
+)
+
+func paths(files []File) []string {
+	var out []string
+	for _, f := range files {
+		out = append(out, f.Path)
+	}
+	return out
+}
+
+func errStrings(errs []*Error) []string {
+	var out []string
+	for _, e := range errs {
+		out = append(out, e.Error())
+	}
+	return out
+}
+
+func TestWalkFilters(t *testing.T) {
+	fsys := fstest.MapFS{
+		"index.md":               {Data: []byte("# Home")},
+		"guide/setup.mdx":        {Data: []byte("# Setup")},
+		"guide/old/legacy.html":  {Data: []byte("<h1>Old</h1>")},
+		"guide/notes.txt":        {Data: []byte("not a page")},
+		".git/HEAD.md":           {Data: []byte("hidden folder")},
+		"guide/.draft.md":        {Data: []byte("hidden file")},
+		"api/ref.htm":            {Data: []byte("<p>ref</p>")},
+		"big.md":                 {Data: make([]byte, 2048)},
+		"node_modules/pkg/a.md":  {Data: []byte("vendored")},
+		"guide/old/keep/this.md": {Data: []byte("# Keep")},
+	}
+	tests := []struct {
+		name string
+		opts WalkOptions
+		want []string
+		errs []string
+	}{
+		{"defaults", WalkOptions{MaxSize: 1024},
+			[]string{"api/ref.htm", "guide/old/keep/this.md", "guide/old/legacy.html", "guide/setup.mdx", "index.md", "node_modules/pkg/a.md"},
+			[]string{"big.md: file is 2.0 kB, over the 1.0 kB size limit; skipped"}},
+		{"exclude folder by name", WalkOptions{Exclude: []string{"node_modules", "old"}},
+			[]string{"api/ref.htm", "big.md", "guide/setup.mdx", "index.md"}, nil},
+		{"exclude with double star", WalkOptions{Exclude: []string{"guide/**/*.html"}},
+			[]string{"api/ref.htm", "big.md", "guide/old/keep/this.md", "guide/setup.mdx", "index.md", "node_modules/pkg/a.md"}, nil},
+		{"include only markdown under guide", WalkOptions{Include: []string{"guide/**/*.md", "guide/*.mdx"}},
+			[]string{"guide/old/keep/this.md", "guide/setup.mdx"}, nil},
+	}
+	for _, tc := range tests {
+		t.Run(tc.name, func(t *testing.T) {
+			files, errs := Walk(fsys, tc.opts)
+			if got := paths(files); !reflect.DeepEqual(got, tc.want) {
+				t.Errorf("files = %q\nwant %q", got, tc.want)
+			}
+			if got := errStrings(errs); !reflect.DeepEqual(got, tc.errs) {
+				t.Errorf("errors = %q\nwant %q", got, tc.errs)
+			}
+		})
+	}
+}
+
+func TestMatch(t *testing.T) {
+	tests := []struct {
+		glob, path string
+		want       bool
+	}{
+		{"*.md", "a/b/c.md", true},
+		{"*.md", "c.mdx", false},
+		{"a/*.md", "a/c.md", true},
+		{"a/*.md", "a/b/c.md", false},
+		{"a/**/*.md", "a/c.md", true},
+		{"a/**/*.md", "a/b/d/c.md", true},
+		{"**/drafts", "x/y/drafts", true},
+		{"drafts/", "x/drafts", true},
+		{"[", "x", false},
+	}
+	for _, tc := range tests {
+		if got := Match(tc.glob, tc.path); got != tc.want {
+			t.Errorf("Match(%q, %q) = %v, want %v", tc.glob, tc.path, got, tc.want)
+		}
+	}
+}
+
+// TestWalkSymlinks uses a real folder, since fstest.MapFS has no symlinks.
+func TestWalkSymlinks(t *testing.T) {
+	root := t.TempDir()
+	outside := t.TempDir()
+	write := func(p, s string) {
+		t.Helper()
+		if err := os.MkdirAll(filepath.Dir(p), 0o755); err != nil {
+			t.Fatal(err)
+		}
+		if err := os.WriteFile(p, []byte(s), 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	link := func(target, name string) {
+		t.Helper()
+		if err := os.Symlink(target, filepath.Join(root, name)); err != nil {
+			t.Skipf("symlinks not supported here: %v", err)
+		}
+	}
+	write(filepath.Join(root, "docs/a.md"), "# A")
+	write(filepath.Join(outside, "secret.md"), "# outside")
+	link("docs/a.md", "alias.md")                                     // file inside the root: followed
+	link(filepath.Join(outside, "secret.md"), "abs.md")               // absolute: leaves the root
+	link("../../"+filepath.Base(outside)+"/secret.md", "docs/rel.md") // relative, leaves the root
+	link("..", "docs/up")                                             // folder loop
+	link("self.md", "self.md")                                        // link to itself
+	link("docs", "mirror")                                            // folder inside the root: followed
+
+	files, errs := Walk(os.DirFS(root), WalkOptions{})
+	want := []string{"alias.md", "docs/a.md", "mirror/a.md"}
+	if got := paths(files); !reflect.DeepEqual(got, want) {
+		t.Errorf("files = %q, want %q", got, want)
+	}
+	if files[0].Target != "docs/a.md" {
+		t.Errorf("alias.md target = %q, want docs/a.md", files[0].Target)
+	}
+	got := strings.Join(errStrings(errs), "\n")
+	for _, w := range []string{
+		"abs.md: symlink points outside the source root",
+		"docs/rel.md: symlink points outside the source root",
+		"docs/up: symlink loop: leads back to .",
+		"mirror/up: symlink loop: leads back to .",
+		"self.md: symlink loop: more than 40 links in a row",
+	} {
+		if !strings.Contains(got, w) {
+			t.Errorf("errors lack %q; got:\n%s", w, got)
+		}
+	}
+}
+
+func TestReadFileUnreadable(t *testing.T) {
+	if os.Geteuid() == 0 {
+		t.Skip("running as root: file permissions do not stop reads")
+	}
+	root := t.TempDir()
+	p := filepath.Join(root, "locked.md")
+	if err := os.WriteFile(p, []byte("# x"), 0o000); err != nil {
+		t.Fatal(err)
+	}
+	files, _ := Walk(os.DirFS(root), WalkOptions{})
+	_, err := ReadFile(os.DirFS(root), files[0], 0)
+	if err == nil || err.Error() != "locked.md: cannot read: permission denied" {
+		t.Fatalf("err = %v", err)
+	}
+}
+
+func TestLooksLikeMDX(t *testing.T) {
+	tests := []struct {
+		src  string
+		want bool
+	}{
+		{"# Title\n\n{/* DO NOT EDIT. generated */}\n\nText.", true},
+		{"# Title\n\n<Callout>Careful.</Callout>\n", true},
+		{"import { Tabs } from 'nextra'\n\n# Title", true},
+		{"# Title\n\nimport the file before you start.\n", false},
+		{"# Title\n\n```jsx\n<Button />\n{/* x */}\n```\n", false},
+		{"# Title\n\n<div>plain html block</div>\n", false},
+	}
+	for _, tc := range tests {
+		if got := looksLikeMDX([]byte(tc.src)); got != tc.want {
+			t.Errorf("looksLikeMDX(%q) = %v, want %v", tc.src, got, tc.want)
+		}
+	}
+}
