@@ -1,0 +1,200 @@
+package build
+
+import (
+	"context"
+	"fmt"
+	"io/fs"
+	"runtime"
+	"sort"
+	"sync/atomic"
+
+	"golang.org/x/sync/errgroup"
+
+	"github.com/kbc-project/kbc/sources"
+)
+
+// Options configure Run. The zero value is not ready: start from
+// DefaultOptions.
+type Options struct {
+	Settings Settings
+	Walk     sources.WalkOptions
+	// Workers bounds the documents processed at once; 0 means GOMAXPROCS.
+	Workers int
+	// Progress, when set, is called as documents finish, from several
+	// goroutines at once; done counts up to total.
+	Progress func(done, total int)
+}
+
+// DefaultOptions returns options with DefaultSettings and the default walk.
+func DefaultOptions() Options {
+	return Options{Settings: DefaultSettings()}
+}
+
+// Stats counts what a build saw and made.
+type Stats struct {
+	Files              int   `json:"files"`               // source files found
+	Documents          int   `json:"documents"`           // files that became documents
+	Skipped            int   `json:"skipped"`             // files left out because of a problem
+	Warnings           int   `json:"warnings"`            // problems, skipped files included
+	Passages           int   `json:"passages"`            // passages made
+	Tokens             int   `json:"tokens"`              // tokens over all passages
+	SourceBytes        int64 `json:"source_bytes"`        // bytes of the files read
+	BoilerplateDropped int   `json:"boilerplate_dropped"` // blocks dropped as site boilerplate
+	SplitPassages      int   `json:"split_passages"`      // passages cut from a block over the budget
+}
+
+// Result is everything one build produced, sorted so that the same input
+// always gives the same result.
+type Result struct {
+	Documents   []*sources.Document // by path
+	Passages    []Passage           // by path, then line
+	Boilerplate []BoilerplateEntry  // most pages first
+	Problems    []*sources.Error    // every bad input, by path and line
+	Stats       Stats
+}
+
+// Run walks the root of fsys, reads every source file, and turns the
+// documents into passages. Bad input never stops it: each problem lands in
+// Result.Problems and the rest is built. Run fails only when the settings
+// are invalid or ctx is cancelled.
+//
+// Per-document work (read, parse, normalise, split) runs on several
+// goroutines; only the boilerplate count looks across documents.
+func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
+	s := opts.Settings
+	if err := s.Validate(); err != nil {
+		return nil, err
+	}
+	tok, err := NewTokenizer(s.Tokenizer)
+	if err != nil {
+		return nil, err
+	}
+	workers := opts.Workers
+	if workers <= 0 {
+		workers = runtime.GOMAXPROCS(0)
+	}
+
+	files, walkErrs := sources.Walk(fsys, opts.Walk)
+	res := &Result{Problems: walkErrs}
+	res.Stats.Files = len(files) + len(walkErrs)
+
+	// Stage 1: read, parse and normalise each document.
+	docs := make([]*sources.Document, len(files))
+	fails := make([]*sources.Error, len(files))
+	var done atomic.Int64
+	g, gctx := errgroup.WithContext(ctx)
+	g.SetLimit(workers)
+	for i, f := range files {
+		g.Go(func() error {
+			if err := gctx.Err(); err != nil {
+				return err
+			}
+			docs[i], fails[i] = readDocument(fsys, f, opts.Walk.MaxSize)
+			if opts.Progress != nil {
+				opts.Progress(int(done.Add(1)), len(files))
+			}
+			return nil
+		})
+	}
+	if err := g.Wait(); err != nil {
+		return nil, err
+	}
+	kept := docs[:0]
+	for i, d := range docs {
+		if fails[i] != nil {
+			res.Problems = append(res.Problems, fails[i])
+			res.Stats.Skipped++
+			continue
+		}
+		res.Problems = append(res.Problems, d.Warnings...)
+		res.Stats.SourceBytes += d.Size
+		kept = append(kept, d)
+	}
+	docs = kept
+	res.Stats.Skipped += len(walkErrs)
+
+	// Stage 2: find the site boilerplate across all documents.
+	bp := FindBoilerplate(docs, s)
+	res.Boilerplate = bp.Entries()
+
+	// Stage 3: strip boilerplate and split each document into passages.
+	parts := make([][]Passage, len(docs))
+	dropped := make([]int, len(docs))
+	g, gctx = errgroup.WithContext(ctx)
+	g.SetLimit(workers)
+	for i, d := range docs {
+		g.Go(func() error {
+			if err := gctx.Err(); err != nil {
+				return err
+			}
+			var clean *sources.Document
+			clean, dropped[i] = bp.Strip(d)
+			parts[i] = Split(clean, tok, s)
+			return nil
+		})
+	}
+	if err := g.Wait(); err != nil {
+		return nil, err
+	}
+	for i := range docs {
+		res.Stats.BoilerplateDropped += dropped[i]
+		for _, p := range parts[i] {
+			res.Stats.Tokens += p.Tokens
+			if p.Split {
+				res.Stats.SplitPassages++
+			}
+		}
+		res.Passages = append(res.Passages, parts[i]...)
+	}
+	res.Documents = docs
+	sortPassages(res.Passages)
+	sources.SortErrors(res.Problems)
+	res.Stats.Documents = len(docs)
+	res.Stats.Passages = len(res.Passages)
+	res.Stats.Warnings = len(res.Problems)
+	return res, nil
+}
+
+// readDocument reads, parses and normalises one file. A nil document comes
+// with the error that kept it out.
+func readDocument(fsys fs.FS, f sources.File, maxSize int64) (*sources.Document, *sources.Error) {
+	data, rerr := sources.ReadFile(fsys, f, maxSize)
+	if rerr != nil {
+		return nil, rerr
+	}
+	doc, err := sources.Parse(f.Path, data)
+	if err != nil {
+		if pe, ok := err.(*sources.Error); ok {
+			return nil, pe
+		}
+		return nil, &sources.Error{Path: f.Path, Msg: err.Error(), Err: err}
+	}
+	doc.ModTime = f.ModTime.UTC()
+	Normalize(doc)
+	if len(doc.Blocks) == 0 {
+		return nil, &sources.Error{Path: f.Path, Line: 1, Msg: "no body text"}
+	}
+	return doc, nil
+}
+
+func sortPassages(ps []Passage) {
+	sort.SliceStable(ps, func(i, j int) bool {
+		a, b := ps[i], ps[j]
+		if a.Path != b.Path {
+			return a.Path < b.Path
+		}
+		if a.Line != b.Line {
+			return a.Line < b.Line
+		}
+		return a.ID < b.ID
+	})
+}
+
+// Strict returns an error naming the count of problems when there are any,
+// for callers that treat every bad input as fatal.
+func (r *Result) Strict() error {
+	if len(r.Problems) == 0 {
+		return nil
+	}
+	return fmt.Errorf("%d bad input file(s) with --strict; no bundle written", len(r.Problems))
+}
