@@ -1,0 +1,374 @@
+package bundle
+
+import (
+	"bufio"
+	"bytes"
+	"cmp"
+	"context"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"math"
+	"os"
+	"path/filepath"
+	"slices"
+	"sync"
+
+	"github.com/blevesearch/bleve/v2"
+	"github.com/blevesearch/bleve/v2/analysis"
+	index "github.com/blevesearch/bleve_index_api"
+
+	"github.com/kbc-project/kbc/build"
+)
+
+// Bundle is a bundle opened for searching. Its methods are safe for
+// concurrent use until Close.
+type Bundle struct {
+	dir      string
+	manifest *Manifest
+	idx      bleve.Index
+	analyzer analysis.Analyzer
+	params   bm25Params
+	passages *os.File
+	lines    map[string]span // passage id -> its line in passages.jsonl
+	scratch  sync.Pool       // *[]float64, one score per passage, all zero
+}
+
+// span is a line of passages.jsonl without its newline.
+type span struct {
+	off int64
+	n   int
+}
+
+// Hit is one search result: the passage and its score.
+type Hit struct {
+	build.Passage
+	Score float64 `json:"score"`
+}
+
+// Open opens the bundle in dir for searching: it reads the manifest and the
+// index statistics, opens the index read-only, and reads passages.jsonl once
+// to find where each passage's line starts; hits are read from there. Open
+// does not verify hashes (see Verify).
+func Open(dir string) (_ *Bundle, err error) {
+	m, err := ReadManifest(dir)
+	if err != nil {
+		return nil, err
+	}
+	st, err := readStats(filepath.Join(dir, filepath.FromSlash(StatsFile)))
+	if err != nil {
+		return nil, err
+	}
+	b := &Bundle{dir: dir, manifest: m, params: st.params()}
+	defer func() {
+		if err != nil {
+			b.Close()
+		}
+	}()
+	idx, err := bleve.OpenUsing(filepath.Join(dir, IndexDir), map[string]any{"read_only": true})
+	if err != nil {
+		return nil, fmt.Errorf("opening index of %s: %w", dir, err)
+	}
+	b.idx = idx
+	if b.analyzer = b.idx.Mapping().AnalyzerNamed(st.Analyzer); b.analyzer == nil {
+		return nil, fmt.Errorf("opening index of %s: no analyzer %q", dir, st.Analyzer)
+	}
+	f, err := os.Open(filepath.Join(dir, PassagesFile))
+	if err != nil {
+		return nil, err
+	}
+	b.passages = f
+	if b.lines, err = readLines(b.passages); err != nil {
+		return nil, fmt.Errorf("%s: %w", b.passages.Name(), err)
+	}
+	n, err := b.idx.DocCount()
+	if err != nil {
+		return nil, err
+	}
+	if int(n) != len(b.lines) || n != uint64(st.Docs) {
+		return nil, fmt.Errorf("%s: index holds %d passages, index/stats.json %d, passages.jsonl %d", dir, n, st.Docs, len(b.lines))
+	}
+	return b, nil
+}
+
+// readLines maps each passage id in passages.jsonl to its line. Lines as
+// Write makes them start with the id ({"id":"...); others are decoded.
+func readLines(f *os.File) (map[string]span, error) {
+	lines := make(map[string]span)
+	sc := bufio.NewScanner(f)
+	sc.Buffer(make([]byte, 1<<16), 1<<30)
+	prefix := []byte(`{"id":"`)
+	var off int64
+	for no := 1; sc.Scan(); no++ {
+		line := sc.Bytes()
+		var id string
+		rest, ok := bytes.CutPrefix(line, prefix)
+		if i := bytes.IndexAny(rest, `"\`); ok && i >= 0 && rest[i] == '"' {
+			id = string(rest[:i])
+		} else {
+			var p struct {
+				ID string `json:"id"`
+			}
+			if err := json.Unmarshal(line, &p); err != nil {
+				return nil, fmt.Errorf("line %d: %w", no, err)
+			}
+			id = p.ID
+		}
+		if _, dup := lines[id]; dup {
+			return nil, fmt.Errorf("line %d: passage id %s is used twice", no, id)
+		}
+		lines[id] = span{off, len(line)}
+		off += int64(len(line)) + 1
+	}
+	return lines, sc.Err()
+}
+
+// Manifest returns the bundle's manifest.
+func (b *Bundle) Manifest() *Manifest { return b.manifest }
+
+// Passage reads the passage with the given id from passages.jsonl.
+func (b *Bundle) Passage(id string) (build.Passage, error) {
+	var p build.Passage
+	s, ok := b.lines[id]
+	if !ok {
+		return p, fmt.Errorf("%s: no passage %s", b.dir, id)
+	}
+	buf := make([]byte, s.n)
+	if _, err := b.passages.ReadAt(buf, s.off); err != nil {
+		return p, err
+	}
+	if err := json.Unmarshal(buf, &p); err != nil {
+		return p, fmt.Errorf("%s: passage %s: %w", b.passages.Name(), id, err)
+	}
+	return p, nil
+}
+
+// Close releases the index and the passages file.
+func (b *Bundle) Close() error {
+	var errs []error
+	if b.idx != nil {
+		errs = append(errs, b.idx.Close())
+		b.idx = nil
+	}
+	if b.passages != nil {
+		errs = append(errs, b.passages.Close())
+		b.passages = nil
+	}
+	return errors.Join(errs...)
+}
+
+// Search returns the k passages that best match query, best first, ranked
+// by BM25 over three fields. Passages that match none of the query's terms
+// are not returned; a query with no terms left after analysis returns none.
+//
+// The query goes through the same analysis as the passages (bleve's "en"
+// analyzer: words split at Unicode word boundaries, possessive 's removed,
+// lower-cased, English stop words dropped, Porter-stemmed), so "installing"
+// finds "install". Each distinct resulting term t counts once. The score of
+// passage d is
+//
+//	score(d) = Σ_f w_f · Σ_t idf_f(t) · tf / (tf + k1 · (1 − b + b · dl / avgdl_f))
+//	idf_f(t) = ln(1 + (N_f − n_f(t) + 0.5) / (n_f(t) + 0.5))
+//
+// for the fields f = title (w = 2.0), heading trail (w = 1.5; its headings
+// joined) and text (w = 1.0), where tf is how often t occurs in field f of
+// d, dl the number of tokens in that field of d (after analysis, so stop
+// words do not count), avgdl_f the mean of dl over the N_f passages whose
+// field f has any token, n_f(t) the number of passages with t in f, k1 = 1.2
+// and b = 0.75. That is BM25 as Robertson and Zaragoza give it ("The
+// Probabilistic Relevance Framework: BM25 and Beyond", 2009, section 3.4),
+// with Lucene's IDF, which stays positive for terms in over half the
+// passages, applied per field and summed as a Lucene boolean query of
+// per-field term queries sums them (no coordination factor, no query
+// normalisation). Equal scores keep passages.jsonl order (path, line, id).
+//
+// bleve computes the terms' postings; the arithmetic is ours, because
+// bleve v2.6.3's own BM25 differs from the formula above (it scores
+// √tf, takes the average field length from the number of distinct terms,
+// rounded up, and multiplies a disjunction by boost·idf·query norm and a
+// coordination factor); the package documentation has the details.
+func (b *Bundle) Search(query string, k int) ([]Hit, error) {
+	if b.idx == nil {
+		return nil, errors.New("search: bundle is closed")
+	}
+	terms := queryTerms(b.analyzer, query)
+	if k <= 0 || len(terms) == 0 {
+		return nil, nil
+	}
+	adv, err := b.idx.Advanced()
+	if err != nil {
+		return nil, err
+	}
+	r, err := adv.Reader()
+	if err != nil {
+		return nil, err
+	}
+	defer r.Close()
+	acc, _ := b.scratch.Get().(*[]float64)
+	if acc == nil || len(*acc) != len(b.lines) {
+		a := make([]float64, len(b.lines))
+		acc = &a
+	}
+	top, err := b.params.rank(r, terms, k, *acc)
+	b.scratch.Put(acc)
+	if err != nil {
+		return nil, fmt.Errorf("search: %w", err)
+	}
+	if len(top) == 0 {
+		return nil, nil
+	}
+	hits := make([]Hit, len(top))
+	for i, s := range top {
+		id, err := r.ExternalID(index.NewIndexInternalID(nil, s.doc))
+		if err != nil {
+			return nil, fmt.Errorf("search: %w", err)
+		}
+		if hits[i].Passage, err = b.Passage(id); err != nil {
+			return nil, fmt.Errorf("search: %w", err)
+		}
+		hits[i].Score = s.score
+	}
+	return hits, nil
+}
+
+// queryTerms analyses query and returns its distinct terms in byte order
+// (a fixed order keeps the floating-point sums, and so the scores, the same
+// from run to run).
+func queryTerms(a analysis.Analyzer, query string) [][]byte {
+	var terms [][]byte
+	for _, tok := range a.Analyze([]byte(query)) {
+		terms = append(terms, tok.Term)
+	}
+	slices.SortFunc(terms, bytes.Compare)
+	return slices.CompactFunc(terms, bytes.Equal)
+}
+
+// bm25Params are the collection statistics and parameters of the ranking,
+// by field.
+type bm25Params struct {
+	k1, b  float64
+	fields []fieldParams
+}
+
+type fieldParams struct {
+	name  string
+	boost float64
+	docs  int     // N_f
+	avgdl float64 // avgdl_f
+}
+
+func (s *indexStats) params() bm25Params {
+	p := bm25Params{k1: s.K1, b: s.B}
+	for _, f := range searchFields {
+		p.fields = append(p.fields, fieldParams{name: f, boost: s.Boosts[f], docs: s.Fields[f].Docs, avgdl: s.avgdl(f)})
+	}
+	return p
+}
+
+type scoredDoc struct {
+	doc   uint64 // internal document number: position in passages.jsonl
+	score float64
+}
+
+// rank scores every passage that holds any of terms and returns the best k,
+// best first; equal scores in document order. acc is scratch space of one
+// float64 per passage, all zero, and is left all zero.
+func (p *bm25Params) rank(r index.IndexReader, terms [][]byte, k int, acc []float64) ([]scoredDoc, error) {
+	var touched []uint64
+	ctx := context.Background()
+	var tfd index.TermFieldDoc
+	defer func() {
+		for _, d := range touched {
+			acc[d] = 0
+		}
+	}()
+	for _, f := range p.fields {
+		if f.boost == 0 || f.docs == 0 {
+			continue
+		}
+		norm := p.k1 * (1 - p.b) // k1·(1−b) + k1·b·dl/avgdl_f, split
+		perLen := p.k1 * p.b / f.avgdl
+		for _, t := range terms {
+			tfr, err := r.TermFieldReader(ctx, t, f.name, true, true, false)
+			if err != nil {
+				return nil, err
+			}
+			n := float64(tfr.Count())
+			if n == 0 {
+				tfr.Close()
+				continue
+			}
+			w := f.boost * math.Log(1+(float64(f.docs)-n+0.5)/(n+0.5))
+			for {
+				d, err := tfr.Next(&tfd)
+				if err != nil {
+					tfr.Close()
+					return nil, err
+				}
+				if d == nil {
+					break
+				}
+				doc := d.ID.Value()
+				if doc >= uint64(len(acc)) {
+					tfr.Close()
+					return nil, fmt.Errorf("index document %d out of range: index and passages disagree", doc)
+				}
+				if acc[doc] == 0 {
+					touched = append(touched, doc)
+				}
+				tf := float64(d.Freq)
+				acc[doc] += w * tf / (tf + norm + perLen*fieldLength(d.Norm))
+			}
+			tfr.Close()
+		}
+	}
+	// The best k in a min-heap whose root is the worst kept so far.
+	worse := func(a, b scoredDoc) bool { return a.score < b.score || a.score == b.score && a.doc > b.doc }
+	top := make([]scoredDoc, 0, min(k, len(touched)))
+	for _, d := range touched {
+		s := scoredDoc{d, acc[d]}
+		if len(top) < k {
+			top = append(top, s)
+			for i := len(top) - 1; i > 0; { // sift up
+				parent := (i - 1) / 2
+				if !worse(top[i], top[parent]) {
+					break
+				}
+				top[i], top[parent] = top[parent], top[i]
+				i = parent
+			}
+			continue
+		}
+		if !worse(top[0], s) {
+			continue
+		}
+		top[0] = s
+		for i := 0; ; { // sift down
+			l, m := 2*i+1, i
+			if l < len(top) && worse(top[l], top[m]) {
+				m = l
+			}
+			if l+1 < len(top) && worse(top[l+1], top[m]) {
+				m = l + 1
+			}
+			if m == i {
+				break
+			}
+			top[i], top[m] = top[m], top[i]
+			i = m
+		}
+	}
+	slices.SortFunc(top, func(a, b scoredDoc) int {
+		return cmp.Or(cmp.Compare(b.score, a.score), cmp.Compare(a.doc, b.doc))
+	})
+	return top, nil
+}
+
+// fieldLength recovers a field's length in tokens from the norm bleve
+// reports. zap stores the exact length; its Posting.Norm returns
+// float64(float32(1/√len)) (zapx v15 posting.go), whose relative error of at
+// most 2⁻²⁴ puts 1/norm² within 0.5 of the length for any length below 2²¹,
+// so rounding gives it back exactly.
+func fieldLength(norm float64) float64 {
+	return math.Round(1 / (norm * norm))
+}

@@ -1,0 +1,640 @@
+package bundle
+
+import (
+	"bytes"
+	"cmp"
+	"context"
+	"math"
+	"os"
+	"path/filepath"
+	"slices"
+	"strings"
+	"sync"
+	"testing"
+
+	"github.com/blevesearch/bleve/v2"
+	"github.com/blevesearch/bleve/v2/analysis/lang/en"
+	"github.com/blevesearch/bleve/v2/registry"
+	"github.com/blevesearch/bleve/v2/search/query"
+	index "github.com/blevesearch/bleve_index_api"
+
+	"github.com/kbc-project/kbc/build"
+)
+
+// TestToyWordsUnchanged checks the premise of the hand computation below:
+// the "en" analyzer keeps every word of the toy corpus as it is.
+func TestToyWordsUnchanged(t *testing.T) {
+	a, err := registry.NewCache().AnalyzerNamed(en.AnalyzerName)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, w := range strings.Fields("truck seal door lamp rope cargo crew van map fuel yard depot dock") {
+		toks := a.Analyze([]byte(w))
+		if len(toks) != 1 || string(toks[0].Term) != w {
+			t.Errorf("%q analyses to %v", w, toks)
+		}
+	}
+}
+
+// TestBM25HandComputed checks Search's scores against BM25 computed by hand
+// for the toy corpus (toyPassages).
+//
+// Formula: Robertson and Zaragoza, "The Probabilistic Relevance Framework:
+// BM25 and Beyond" (2009), section 3.4, the BM25 term weight
+// tf / (k1·((1−b) + b·dl/avdl) + tf) times an IDF, here Lucene's
+// ln(1 + (N − n + 0.5)/(n + 0.5)); per field with boost w, summed.
+// k1 = 1.2, b = 0.75; w = 2.0 title, 1.5 heading, 1.0 text.
+//
+// Field statistics (N: passages with tokens in the field; avgdl: tokens / N):
+//
+//	field    passages: tokens                    N  tokens  avgdl
+//	title    a1 b1 c1 d1 e1                      5    5     1
+//	heading  b1 ("cargo") c2 ("cargo door") d1   3    4     1.333333
+//	text     a3 b5 c2 d1 e6                      5   17     3.4
+//
+// Term contributions, w · idf · tf / (tf + k1·(1 − b + b·dl/avgdl)):
+//
+//	query "truck"
+//	term   field    N  n  idf          doc tf dl avgdl     contribution
+//	truck  text     5  3  0.538996501  a   2  3  3.4       0.348400780
+//	truck  text     5  3  0.538996501  b   1  5  3.4       0.205447097
+//	truck  text     5  3  0.538996501  d   1  1  3.4       0.344471448
+//	ranking a 0.348400780, d 0.344471448, b 0.205447097
+//
+//	query "the doors and seals" (terms door, seal; "the", "and" are stop words)
+//	door   heading  3  1  0.980829253  c   1  2  1.333333  0.555186370 (w 1.5)
+//	door   text     5  2  0.875468737  b   1  5  3.4       0.333698846
+//	door   text     5  2  0.875468737  c   1  2  3.4       0.478552043
+//	seal   text     5  2  0.875468737  a   1  3  3.4       0.418060914
+//	seal   text     5  2  0.875468737  b   1  5  3.4       0.333698846
+//	ranking c 1.033738413, b 0.667397692, a 0.418060914
+//
+//	query "cargo depot"
+//	depot  title    5  2  0.875468737  c   1  1  1         0.795880670 (w 2)
+//	depot  title    5  2  0.875468737  d   1  1  1         0.795880670 (w 2)
+//	cargo  heading  3  2  0.470003629  b   1  1  1.333333  0.356964782 (w 1.5)
+//	cargo  heading  3  2  0.470003629  c   1  2  1.333333  0.266039790 (w 1.5)
+//	cargo  text     5  1  1.386294361  c   1  2  3.4       0.757781484
+//	ranking c 1.819701944, d 0.795880670, b 0.356964782
+//
+// One line worked through: "truck" in a: idf = ln(1 + 2.5/3.5) = 0.5389965;
+// K = 1.2·(0.25 + 0.75·3/3.4) = 1.0941176; 2/(2 + K) = 0.6463878;
+// 0.6463878 · 0.5389965 = 0.3484008.
+func TestBM25HandComputed(t *testing.T) {
+	dir := filepath.Join(t.TempDir(), "toy")
+	mustWrite(t, dir, &Input{Passages: toyPassages()})
+	b := mustOpen(t, dir)
+	type hit struct {
+		id    string
+		score float64
+	}
+	tests := []struct {
+		query string
+		want  []hit
+	}{
+		{"truck", []hit{{"a", 0.348400780}, {"d", 0.344471448}, {"b", 0.205447097}}},
+		{"the doors and seals", []hit{{"c", 1.033738413}, {"b", 0.667397692}, {"a", 0.418060914}}},
+		{"cargo depot", []hit{{"c", 1.819701944}, {"d", 0.795880670}, {"b", 0.356964782}}},
+	}
+	for _, tt := range tests {
+		t.Run(tt.query, func(t *testing.T) {
+			hits, err := b.Search(tt.query, 10)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if len(hits) != len(tt.want) {
+				t.Fatalf("got %d hits, want %d: %+v", len(hits), len(tt.want), hits)
+			}
+			for i, h := range hits {
+				w := tt.want[i]
+				// The table's 9 decimals are its precision.
+				if h.ID != w.id || math.Abs(h.Score-w.score) > 1e-9 {
+					t.Errorf("hit %d: got %s %.9f, want %s %.9f", i, h.ID, h.Score, w.id, w.score)
+				}
+			}
+		})
+	}
+}
+
+// TestAverageLengthMatters shows, on the toy corpus, that bleve's own
+// average field length would change the ranking: for the text field bleve
+// v2.6.3 takes ceil(distinct terms / documents) = ceil(10/5) = 2 instead of
+// the true 3.4 tokens, and with it the one-word passage d outranks a, which
+// holds "truck" twice in three words:
+//
+//	avgdl 2:  a = idf · 2/(2 + 1.2·(0.25 + 0.75·3/2)) = idf · 0.547945
+//	          d = idf · 1/(1 + 1.2·(0.25 + 0.75·1/2)) = idf · 0.571429
+func TestAverageLengthMatters(t *testing.T) {
+	dir := filepath.Join(t.TempDir(), "toy")
+	mustWrite(t, dir, &Input{Passages: toyPassages()})
+	b := mustOpen(t, dir)
+	adv, err := b.idx.Advanced()
+	if err != nil {
+		t.Fatal(err)
+	}
+	r, err := adv.Reader()
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer r.Close()
+	card, err := r.(index.BM25Reader).FieldCardinality(fieldText)
+	if err != nil {
+		t.Fatal(err)
+	}
+	// search/searcher/search_term.go, bm25ScoreMetrics.
+	bleveAvg := math.Ceil(float64(card) / float64(b.params.fields[2].docs))
+	if card != 10 || bleveAvg != 2 {
+		t.Fatalf("text field: %d distinct terms, bleve's avgdl %v; want 10 and 2", card, bleveAvg)
+	}
+	ids := func(p bm25Params) []string {
+		top, err := p.rank(r, [][]byte{[]byte("truck")}, 3, make([]float64, 5))
+		if err != nil {
+			t.Fatal(err)
+		}
+		var out []string
+		for _, s := range top {
+			id, err := r.ExternalID(index.NewIndexInternalID(nil, s.doc))
+			if err != nil {
+				t.Fatal(err)
+			}
+			out = append(out, id)
+		}
+		return out
+	}
+	ours := ids(b.params)
+	unfixed := b.params
+	unfixed.fields = slices.Clone(b.params.fields)
+	unfixed.fields[2].avgdl = bleveAvg
+	theirs := ids(unfixed)
+	if want := []string{"a", "d", "b"}; !slices.Equal(ours, want) {
+		t.Errorf("true avgdl ranks %v, want %v", ours, want)
+	}
+	if want := []string{"d", "a", "b"}; !slices.Equal(theirs, want) {
+		t.Errorf("bleve's avgdl ranks %v, want %v", theirs, want)
+	}
+}
+
+// TestBleveNativeDiffers documents that bleve's own BM25 scoring of the same
+// index ranks differently: it puts d first for "truck" (√tf and its average
+// length both favour the short passage).
+func TestBleveNativeDiffers(t *testing.T) {
+	dir := filepath.Join(t.TempDir(), "toy")
+	mustWrite(t, dir, &Input{Passages: toyPassages()})
+	b := mustOpen(t, dir)
+	q := query.NewMatchQuery("truck")
+	q.SetField(fieldText)
+	res, err := b.idx.SearchInContext(context.Background(), bleve.NewSearchRequest(q))
+	if err != nil {
+		t.Fatal(err)
+	}
+	var got []string
+	for _, h := range res.Hits {
+		got = append(got, h.ID)
+	}
+	if want := []string{"d", "a", "b"}; !slices.Equal(got, want) {
+		t.Errorf("bleve ranks %v, want %v", got, want)
+	}
+	ours, err := b.Search("truck", 3)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if ours[0].ID != "a" {
+		t.Errorf("Search ranks %s first, want a", ours[0].ID)
+	}
+}
+
+// TestStatsMatchPostings checks index/stats.json, counted from the analysed
+// fields at build time, against the index itself: the sum of the term
+// frequencies of every posting of a field is its token count, and the
+// passages seen in any posting are those with the field.
+func TestStatsMatchPostings(t *testing.T) {
+	dir := filepath.Join(t.TempDir(), "gen")
+	ps := genPassages(1200, 7) // two segments, merged
+	mustWrite(t, dir, &Input{Passages: ps})
+	st, err := readStats(filepath.Join(dir, filepath.FromSlash(StatsFile)))
+	if err != nil {
+		t.Fatal(err)
+	}
+	b := mustOpen(t, dir)
+	adv, _ := b.idx.Advanced()
+	r, err := adv.Reader()
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer r.Close()
+	ctx := context.Background()
+	for _, f := range searchFields {
+		t.Run(f, func(t *testing.T) {
+			dict, err := r.FieldDict(f)
+			if err != nil {
+				t.Fatal(err)
+			}
+			defer dict.Close()
+			var got fieldStats
+			seen := map[uint64]bool{}
+			lens := map[uint64]uint64{}     // sum of term frequencies
+			normLen := map[uint64]float64{} // length from the norm
+			var tfd index.TermFieldDoc
+			for {
+				e, err := dict.Next()
+				if err != nil {
+					t.Fatal(err)
+				}
+				if e == nil {
+					break
+				}
+				tfr, err := r.TermFieldReader(ctx, []byte(e.Term), f, true, true, false)
+				if err != nil {
+					t.Fatal(err)
+				}
+				for {
+					d, err := tfr.Next(&tfd)
+					if err != nil {
+						t.Fatal(err)
+					}
+					if d == nil {
+						break
+					}
+					got.Tokens += int(d.Freq)
+					doc := d.ID.Value()
+					lens[doc] += d.Freq
+					normLen[doc] = fieldLength(d.Norm)
+					if !seen[doc] {
+						seen[doc] = true
+						got.Docs++
+					}
+				}
+				tfr.Close()
+			}
+			if got != st.Fields[f] {
+				t.Errorf("postings give %+v, stats.json %+v", got, st.Fields[f])
+			}
+			for doc, n := range lens {
+				if normLen[doc] != float64(n) {
+					t.Errorf("passage %d: norm gives length %v, its postings %d", doc, normLen[doc], n)
+				}
+			}
+		})
+	}
+}
+
+// TestFieldLength checks that rounding 1/norm² gives back every length below
+// 2²¹ from the norm zap reports, float64(float32(1/√len)) (zapx v15
+// posting.go, Posting.Norm).
+func TestFieldLength(t *testing.T) {
+	for n := 1; n < 1<<21; n++ {
+		norm := float64(float32(1.0 / math.Sqrt(float64(n))))
+		if got := fieldLength(norm); got != float64(n) {
+			t.Fatalf("length %d comes back as %v", n, got)
+		}
+	}
+}
+
+func TestSearchEdges(t *testing.T) {
+	dir := filepath.Join(t.TempDir(), "toy")
+	mustWrite(t, dir, &Input{Passages: toyPassages()})
+	b := mustOpen(t, dir)
+	tests := []struct {
+		name  string
+		query string
+		k     int
+		want  []string
+	}{
+		{"k zero", "truck", 0, nil},
+		{"k cuts", "truck", 2, []string{"a", "d"}},
+		{"stop words only", "the and of", 5, nil},
+		{"unknown word", "zeppelin", 5, nil},
+		{"empty", "", 5, nil},
+		{"case and plural", "TRUCKS", 1, []string{"a"}},
+		{"punctuation", "truck, (seal)!", 1, []string{"a"}},
+		{"repeated term counts once", "truck truck truck", 3, []string{"a", "d", "b"}},
+	}
+	for _, tt := range tests {
+		t.Run(tt.name, func(t *testing.T) {
+			hits, err := b.Search(tt.query, tt.k)
+			if err != nil {
+				t.Fatal(err)
+			}
+			var got []string
+			for _, h := range hits {
+				got = append(got, h.ID)
+			}
+			if !slices.Equal(got, tt.want) {
+				t.Errorf("got %v, want %v", got, tt.want)
+			}
+		})
+	}
+	// Repeating a term does not change its score.
+	one, _ := b.Search("truck", 1)
+	three, _ := b.Search("truck truck truck", 1)
+	if one[0].Score != three[0].Score {
+		t.Errorf("repeated term: %v != %v", three[0].Score, one[0].Score)
+	}
+	if err := b.Close(); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := b.Search("truck", 1); err == nil {
+		t.Error("search on a closed bundle did not fail")
+	}
+}
+
+func TestSearchStemming(t *testing.T) {
+	dir := filepath.Join(t.TempDir(), "b")
+	mustWrite(t, dir, &Input{Passages: []build.Passage{
+		mkPassage("install", "install.md", 1, "Setup", []string{"Install the agent"}, "Run the installer on each depot computer."),
+		mkPassage("other", "other.md", 1, "Other", nil, "Nothing to see."),
+	}})
+	b := mustOpen(t, dir)
+	hits, err := b.Search("installing", 5)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(hits) != 1 || hits[0].ID != "install" {
+		t.Errorf("got %+v", hits)
+	}
+}
+
+func TestSearchEmptyBundle(t *testing.T) {
+	dir := filepath.Join(t.TempDir(), "empty")
+	m := mustWrite(t, dir, &Input{})
+	if m.Counts["passages"] != 0 {
+		t.Errorf("counts %v", m.Counts)
+	}
+	b := mustOpen(t, dir)
+	hits, err := b.Search("anything", 5)
+	if err != nil || hits != nil {
+		t.Errorf("got %v, %v", hits, err)
+	}
+}
+
+// FuzzSearch checks Search's invariants on the toy corpus for any query:
+// no error, at most k hits, scores positive and falling, ties in
+// passages.jsonl order, each hit holding at least one of the query's terms.
+func FuzzSearch(f *testing.F) {
+	for _, s := range []string{"truck", "the doors and seals", "cargo depot", "", "TRUCKS!", "ünïcödé 日本語", "a\x00b", "door door"} {
+		f.Add(s, 3)
+	}
+	dir := filepath.Join(f.TempDir(), "toy")
+	mustWrite(f, dir, &Input{Passages: toyPassages()})
+	b := mustOpen(f, dir)
+	order := map[string]int{}
+	for i, id := range []string{"c", "d", "e", "a", "b"} { // path, line order
+		order[id] = i
+	}
+	f.Fuzz(func(t *testing.T, q string, k int) {
+		k = k%8 + 1
+		if k < 1 {
+			k += 8
+		}
+		hits, err := b.Search(q, k)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if len(hits) > k {
+			t.Fatalf("%d hits for k=%d", len(hits), k)
+		}
+		terms := queryTerms(b.analyzer, q)
+		for i, h := range hits {
+			if !(h.Score > 0) {
+				t.Errorf("hit %s scores %v", h.ID, h.Score)
+			}
+			if i > 0 {
+				prev := hits[i-1]
+				if h.Score > prev.Score || h.Score == prev.Score && order[h.ID] < order[prev.ID] {
+					t.Errorf("hits out of order: %s %v after %s %v", h.ID, h.Score, prev.ID, prev.Score)
+				}
+			}
+			fields := queryTerms(b.analyzer, h.Title+" "+strings.Join(h.Heading, " ")+" "+h.Text)
+			if !slices.ContainsFunc(terms, func(t []byte) bool {
+				return slices.ContainsFunc(fields, func(u []byte) bool { return string(t) == string(u) })
+			}) {
+				t.Errorf("hit %s holds none of %q", h.ID, terms)
+			}
+		}
+	})
+}
+
+// TestBM25Oracle compares Search with a plain implementation of the formula
+// in its doc comment, written from the passages themselves (each field run
+// through the analyzer, statistics counted here), on a generated corpus of
+// several segments: the same passages, in the same order, with scores equal
+// to 1e-12 relative.
+func TestBM25Oracle(t *testing.T) {
+	ps := genPassages(2300, 3)
+	dir := filepath.Join(t.TempDir(), "gen")
+	mustWrite(t, dir, &Input{Passages: ps})
+	b := mustOpen(t, dir)
+	a := b.analyzer
+	slices.SortFunc(ps, func(x, y build.Passage) int { // passages.jsonl order
+		return cmp.Or(strings.Compare(x.Path, y.Path), x.Line-y.Line, strings.Compare(x.ID, y.ID))
+	})
+	boosts := map[string]float64{"title": 2, "heading": 1.5, "text": 1}
+	tf := map[string][]map[string]int{} // field -> passage -> term -> tf
+	dl := map[string][]int{}
+	for _, f := range searchFields {
+		for _, p := range ps {
+			v := map[string]string{"title": p.Title, "heading": strings.Join(p.Heading, " > "), "text": p.Text}[f]
+			m := map[string]int{}
+			toks := a.Analyze([]byte(v))
+			for _, tok := range toks {
+				m[string(tok.Term)]++
+			}
+			tf[f] = append(tf[f], m)
+			dl[f] = append(dl[f], len(toks))
+		}
+	}
+	type scored struct {
+		id    string
+		score float64
+	}
+	oracle := func(q string) []scored {
+		score := make([]float64, len(ps))
+		for _, f := range searchFields {
+			var nf, tokens int
+			for _, l := range dl[f] {
+				if l > 0 {
+					nf++
+					tokens += l
+				}
+			}
+			avg := float64(tokens) / float64(nf)
+			for _, term := range queryTerms(a, q) {
+				n := 0
+				for _, m := range tf[f] {
+					if m[string(term)] > 0 {
+						n++
+					}
+				}
+				idf := math.Log(1 + (float64(nf)-float64(n)+0.5)/(float64(n)+0.5))
+				for i, m := range tf[f] {
+					if c := float64(m[string(term)]); c > 0 {
+						score[i] += boosts[f] * idf * c / (c + 1.2*(1-0.75+0.75*float64(dl[f][i])/avg))
+					}
+				}
+			}
+		}
+		idx := make([]int, 0, len(ps))
+		for i, s := range score {
+			if s > 0 {
+				idx = append(idx, i)
+			}
+		}
+		slices.SortStableFunc(idx, func(x, y int) int { return cmp.Compare(score[y], score[x]) })
+		var out []scored
+		for _, i := range idx[:min(10, len(idx))] {
+			out = append(out, scored{ps[i].ID, score[i]})
+		}
+		return out
+	}
+	// Queries: words of some passages' titles, headings and texts.
+	total := 0
+	defer func() {
+		if total < 200 {
+			t.Errorf("only %d hits in all: the queries test little", total)
+		}
+	}()
+	for i := 0; i < 40; i++ {
+		p := ps[(i*977)%len(ps)]
+		words := strings.Fields(p.Text)
+		q := words[i%len(words)] + " " + p.Heading[1] + " " + words[(i*7)%len(words)]
+		if i%5 == 0 {
+			q = strings.Fields(p.Title)[0]
+		}
+		hits, err := b.Search(q, 10)
+		if err != nil {
+			t.Fatal(err)
+		}
+		want := oracle(q)
+		total += len(want)
+		var got []scored
+		for _, h := range hits {
+			got = append(got, scored{h.ID, h.Score})
+		}
+		if !slices.EqualFunc(got, want, func(x, y scored) bool {
+			return x.id == y.id && math.Abs(x.score-y.score) <= 1e-12*y.score
+		}) {
+			t.Errorf("query %q:\n got %v\nwant %v", q, got, want)
+		}
+	}
+}
+
+// TestSearchConcurrent runs searches from several goroutines (run it with
+// -race) and expects what one goroutine gets.
+func TestSearchConcurrent(t *testing.T) {
+	ps := genPassages(600, 4)
+	dir := filepath.Join(t.TempDir(), "gen")
+	mustWrite(t, dir, &Input{Passages: ps})
+	b := mustOpen(t, dir)
+	var queries []string
+	for i := 0; i < 20; i++ {
+		w := strings.Fields(ps[i*29].Text)
+		queries = append(queries, w[0]+" "+w[len(w)/2]+" "+ps[i].Title)
+	}
+	want := make([][]Hit, len(queries))
+	for i, q := range queries {
+		var err error
+		if want[i], err = b.Search(q, 7); err != nil {
+			t.Fatal(err)
+		}
+	}
+	var wg sync.WaitGroup
+	for g := 0; g < 4; g++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for i := range queries {
+				j := (i + g*5) % len(queries)
+				got, err := b.Search(queries[j], 7)
+				if err != nil {
+					t.Error(err)
+					return
+				}
+				if !slices.EqualFunc(got, want[j], func(a, b Hit) bool { return a.ID == b.ID && a.Score == b.Score }) {
+					t.Errorf("query %q: got %v, want %v", queries[j], got, want[j])
+				}
+			}
+		}()
+	}
+	wg.Wait()
+}
+
+func TestOpenErrors(t *testing.T) {
+	src := filepath.Join(t.TempDir(), "src")
+	mustWrite(t, src, &Input{Passages: toyPassages()})
+	tests := []struct {
+		name   string
+		change func(dir string) error
+		want   string // part of the error
+	}{
+		{"no manifest", func(dir string) error { return os.Remove(filepath.Join(dir, ManifestFile)) }, "no such file"},
+		{"newer format", func(dir string) error {
+			p := filepath.Join(dir, ManifestFile)
+			data, _ := os.ReadFile(p)
+			return os.WriteFile(p, bytes.Replace(data, []byte(`"format": 1`), []byte(`"format": 2`), 1), 0o644)
+		}, "bundle format 2, this version reads 1"},
+		{"no stats", func(dir string) error { return os.Remove(filepath.Join(dir, "index", "stats.json")) }, "no such file"},
+		{"no index", func(dir string) error { return os.RemoveAll(filepath.Join(dir, "index", "store")) }, "opening index"},
+		{"passage added", func(dir string) error {
+			f, err := os.OpenFile(filepath.Join(dir, PassagesFile), os.O_APPEND|os.O_WRONLY, 0)
+			if err != nil {
+				return err
+			}
+			defer f.Close()
+			_, err = f.WriteString(`{"id":"z","path":"z.md"}` + "\n")
+			return err
+		}, "index holds 5 passages, index/stats.json 5, passages.jsonl 6"},
+		{"line not JSON", func(dir string) error {
+			return os.WriteFile(filepath.Join(dir, PassagesFile), []byte("{\"id\":\"a\\u0022\nnope\n"), 0o644)
+		}, "passages.jsonl: line 1: "},
+		{"id twice", func(dir string) error {
+			return os.WriteFile(filepath.Join(dir, PassagesFile), []byte("{\"id\":\"a\"}\n{\"id\":\"a\"}\n"), 0o644)
+		}, "passages.jsonl: line 2: passage id a is used twice"},
+	}
+	for _, tt := range tests {
+		t.Run(tt.name, func(t *testing.T) {
+			dir := filepath.Join(t.TempDir(), "b")
+			if err := os.CopyFS(dir, os.DirFS(src)); err != nil {
+				t.Fatal(err)
+			}
+			if err := tt.change(dir); err != nil {
+				t.Fatal(err)
+			}
+			b, err := Open(dir)
+			if err == nil {
+				b.Close()
+				t.Fatal("Open did not fail")
+			}
+			if !strings.Contains(err.Error(), tt.want) {
+				t.Errorf("got %v, want %q in it", err, tt.want)
+			}
+		})
+	}
+}
+
+// TestOddIDs covers ids that JSON escapes, which Open reads the slow way.
+func TestOddIDs(t *testing.T) {
+	ids := []string{`quote"d`, `back\slash`, "tab\tbed", "line\u2028sep", "<html&>", "ünï"}
+	var ps []build.Passage
+	for i, id := range ids {
+		ps = append(ps, mkPassage(id, "odd.md", i+1, "Odd", nil, "truck number "+id))
+	}
+	dir := filepath.Join(t.TempDir(), "b")
+	mustWrite(t, dir, &Input{Passages: ps})
+	b := mustOpen(t, dir)
+	if b.Manifest().Counts["passages"] != len(ids) {
+		t.Errorf("manifest counts %v", b.Manifest().Counts)
+	}
+	hits, err := b.Search("truck", 10)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var got []string
+	for _, h := range hits {
+		got = append(got, h.ID)
+	}
+	slices.Sort(got)
+	want := slices.Sorted(slices.Values(ids))
+	if !slices.Equal(got, want) {
+		t.Errorf("got %q, want %q", got, want)
+	}
+}

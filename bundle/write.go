@@ -1,0 +1,499 @@
+package bundle
+
+import (
+	"bufio"
+	"crypto/sha256"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"io"
+	"io/fs"
+	"os"
+	"path"
+	"path/filepath"
+	"runtime"
+	"slices"
+	"strings"
+	"time"
+	"unicode/utf8"
+
+	"github.com/kbc-project/kbc/build"
+	"github.com/kbc-project/kbc/sources"
+)
+
+// Input is everything a bundle is made of.
+type Input struct {
+	// Passages are written to passages.jsonl and indexed. Write sorts
+	// them by path, line and id; it does not change the caller's slice.
+	Passages []build.Passage
+	// Settings are the build settings, marshalled into the manifest with
+	// sorted keys; nil leaves them out.
+	Settings any
+	// Tool names the writing program and its version, e.g. "kbc v0.1.0".
+	Tool string
+	// SourceCommit is the source repository's commit; empty leaves it out.
+	SourceCommit string
+	// SourceDirty records uncommitted changes under the source folder.
+	SourceDirty bool
+	// BuiltAt is the build time (pass the SOURCE_DATE_EPOCH time when it
+	// is set); the zero time leaves it out, which keeps the manifest
+	// reproducible.
+	BuiltAt time.Time
+	// Counts are extra counts for the manifest, e.g. "documents"; Write
+	// sets "passages" and "tokens" itself and, when the caller gives no
+	// "documents", counts the distinct passage paths.
+	Counts map[string]int
+	// Files are extra files (reports), by slash path inside the bundle,
+	// written as they are and listed in the manifest. A path must be
+	// valid for fs.ValidPath, must not contain a backslash and must not
+	// clash with the bundle's own files or with another path.
+	Files map[string][]byte
+}
+
+// Write writes the bundle for in into the folder out and returns its
+// manifest.
+//
+// Nobody ever sees half a bundle: Write builds the whole bundle in a new
+// folder beside out (same parent, named ".<out>.tmp-<random>"), flushes
+// every file and folder to stable storage, and only then puts it in place
+// of out in one step (see place). Any failure removes the temporary folder
+// and leaves an earlier out untouched. out must not exist, or be an empty
+// folder, or hold a bundle (a manifest.json): Write refuses to replace
+// anything else. A crash can leave a ".<out>.tmp-*" folder behind; nothing
+// reads it, and it may be deleted.
+//
+// Two calls with equal input write byte-identical files (TestDeterministic).
+//
+// Write analyses the passages on up to GOMAXPROCS goroutines. It may be
+// called concurrently for different out folders. Folders are created 0755
+// and files 0644.
+func Write(out string, in *Input) (*Manifest, error) {
+	return write(out, in, nil)
+}
+
+// write is Write with a hook run on the complete temporary folder just
+// before it is put in place; tests use it to fail late.
+func write(out string, in *Input, hook func(tmp string) error) (_ *Manifest, err error) {
+	if in == nil {
+		return nil, errors.New("writing bundle: no input")
+	}
+	out = filepath.Clean(out)
+	if err := checkInput(in); err != nil {
+		return nil, fmt.Errorf("writing bundle %s: %w", out, err)
+	}
+	if err := checkTarget(out); err != nil {
+		return nil, fmt.Errorf("writing bundle %s: %w", out, err)
+	}
+	parent, base := filepath.Dir(out), filepath.Base(out)
+	tmp, err := os.MkdirTemp(parent, "."+base+".tmp-")
+	if err != nil {
+		return nil, fmt.Errorf("writing bundle %s: cannot create a folder in %s: %w", out, parent, err)
+	}
+	defer func() {
+		if err != nil {
+			os.RemoveAll(tmp)
+		}
+	}()
+	m, err := writeTree(tmp, in)
+	if err == nil && hook != nil {
+		err = hook(tmp)
+	}
+	if err == nil {
+		err = place(tmp, out, exchange)
+	}
+	if err != nil {
+		return nil, fmt.Errorf("writing bundle %s: %w", out, err)
+	}
+	return m, nil
+}
+
+// reserved reports whether name is, or lies under, one of the bundle's own
+// files.
+func reserved(name string) bool {
+	switch name {
+	case ManifestFile, PassagesFile, SchemaFile, IndexDir:
+		return true
+	}
+	return strings.HasPrefix(name, IndexDir+"/")
+}
+
+// checkInput checks the extra file paths and the passages against the
+// promises of passages.schema.json, before anything is written.
+func checkInput(in *Input) error {
+	names := make([]string, 0, len(in.Files))
+	for name := range in.Files {
+		if !fs.ValidPath(name) || name == "." || strings.Contains(name, `\`) {
+			return fmt.Errorf("invalid file path %q", name)
+		}
+		if reserved(name) {
+			return fmt.Errorf("file path %q clashes with the bundle's own files", name)
+		}
+		names = append(names, name)
+	}
+	slices.Sort(names)
+	for i := 1; i < len(names); i++ {
+		if strings.HasPrefix(names[i], names[i-1]+"/") {
+			return fmt.Errorf("file path %q lies under file %q", names[i], names[i-1])
+		}
+	}
+
+	var errs []*sources.Error
+	bad := func(p *build.Passage, format string, args ...any) {
+		errs = append(errs, &sources.Error{Path: p.Path, Line: p.Line, Msg: fmt.Sprintf(format, args...)})
+	}
+	seen := make(map[string]bool, len(in.Passages))
+	for i := range in.Passages {
+		p := &in.Passages[i]
+		switch {
+		case p.ID == "":
+			bad(p, "passage has no id")
+		case seen[p.ID]:
+			bad(p, "passage id %s is used twice", p.ID)
+		}
+		seen[p.ID] = true
+		if p.Path == "" {
+			bad(p, "passage %s has no path", p.ID)
+		}
+		if p.Line < 1 || p.EndLine < p.Line {
+			bad(p, "passage %s has lines %d-%d", p.ID, p.Line, p.EndLine)
+		}
+		if p.Tokens < 0 {
+			bad(p, "passage %s has %d tokens", p.ID, p.Tokens)
+		}
+		if !validUTF8(p) {
+			bad(p, "passage %s holds invalid UTF-8", p.ID)
+		}
+		if !isHexHash(p.Hash) {
+			bad(p, "passage %s has hash %q, want 64 lower-case hex digits", p.ID, p.Hash)
+		}
+	}
+	if len(errs) == 0 {
+		return nil
+	}
+	sources.SortErrors(errs)
+	joined := make([]error, len(errs))
+	for i, e := range errs {
+		joined[i] = e
+	}
+	return fmt.Errorf("%d bad passages:\n%w", len(errs), errors.Join(joined...))
+}
+
+// validUTF8 reports whether all of p's strings are valid UTF-8, so that
+// passages.jsonl holds them unchanged (JSON would replace bad bytes).
+func validUTF8(p *build.Passage) bool {
+	for _, h := range p.Heading {
+		if !utf8.ValidString(h) {
+			return false
+		}
+	}
+	return utf8.ValidString(p.ID) && utf8.ValidString(p.Path) && utf8.ValidString(p.Anchor) &&
+		utf8.ValidString(p.Title) && utf8.ValidString(p.Text)
+}
+
+func isHexHash(s string) bool {
+	if len(s) != 2*sha256.Size {
+		return false
+	}
+	for i := 0; i < len(s); i++ {
+		if c := s[i]; !('0' <= c && c <= '9' || 'a' <= c && c <= 'f') {
+			return false
+		}
+	}
+	return true
+}
+
+// checkTarget refuses an out that Write must not replace: anything but a
+// folder, or a folder that is neither empty nor a bundle.
+func checkTarget(out string) error {
+	fi, err := os.Lstat(out)
+	if errors.Is(err, fs.ErrNotExist) {
+		return nil
+	}
+	if err != nil {
+		return fmt.Errorf("cannot use it: %w", err)
+	}
+	if !fi.IsDir() {
+		return errors.New("it exists and is not a folder")
+	}
+	if _, err := os.Lstat(filepath.Join(out, ManifestFile)); err == nil {
+		return nil
+	}
+	entries, err := os.ReadDir(out)
+	if err != nil {
+		return err
+	}
+	if len(entries) > 0 {
+		return errors.New("refusing to replace a folder that is not empty and holds no manifest.json")
+	}
+	return nil
+}
+
+// sortedOrder returns the indexes of ps ordered by path, line and id.
+func sortedOrder(ps []build.Passage) []int {
+	order := make([]int, len(ps))
+	for i := range order {
+		order[i] = i
+	}
+	slices.SortFunc(order, func(a, b int) int {
+		pa, pb := &ps[a], &ps[b]
+		if c := strings.Compare(pa.Path, pb.Path); c != 0 {
+			return c
+		}
+		if pa.Line != pb.Line {
+			return pa.Line - pb.Line
+		}
+		return strings.Compare(pa.ID, pb.ID)
+	})
+	return order
+}
+
+// writeTree writes the whole bundle into the empty folder dir and flushes
+// it to stable storage.
+func writeTree(dir string, in *Input) (*Manifest, error) {
+	if err := os.Chmod(dir, 0o755); err != nil {
+		return nil, err
+	}
+	settings, err := canonicalJSON(in.Settings)
+	if err != nil {
+		return nil, fmt.Errorf("settings: %w", err)
+	}
+	m := &Manifest{
+		Format:       FormatVersion,
+		Tool:         in.Tool,
+		SourceCommit: in.SourceCommit,
+		SourceDirty:  in.SourceDirty,
+		Settings:     settings,
+		Counts:       make(map[string]int, len(in.Counts)+3),
+		Files:        make(map[string]string),
+	}
+	if !in.BuiltAt.IsZero() {
+		m.BuiltAt = in.BuiltAt.UTC().Truncate(time.Second)
+	}
+	for k, v := range in.Counts {
+		m.Counts[k] = v
+	}
+	order := sortedOrder(in.Passages)
+	tokens := 0
+	paths := 0
+	for j, i := range order {
+		tokens += in.Passages[i].Tokens
+		if j == 0 || in.Passages[i].Path != in.Passages[order[j-1]].Path {
+			paths++
+		}
+	}
+	m.Counts["passages"] = len(order)
+	m.Counts["tokens"] = tokens
+	if _, ok := m.Counts["documents"]; !ok {
+		m.Counts["documents"] = paths
+	}
+
+	// passages.jsonl: one compact JSON object per line.
+	m.Files[PassagesFile], err = writeFile(dir, PassagesFile, func(w io.Writer) error {
+		bw := bufio.NewWriterSize(w, 1<<16)
+		enc := json.NewEncoder(bw)
+		enc.SetEscapeHTML(false)
+		for _, i := range order {
+			p := in.Passages[i]
+			if p.Heading == nil {
+				p.Heading = []string{} // "heading" is always an array
+			}
+			if err := enc.Encode(&p); err != nil {
+				return fmt.Errorf("passage %s: %w", p.ID, err)
+			}
+		}
+		return bw.Flush()
+	})
+	if err != nil {
+		return nil, err
+	}
+	m.BundleID = strings.TrimPrefix(m.Files[PassagesFile], "sha256:")
+
+	m.Files[SchemaFile], err = writeFile(dir, SchemaFile, bytesWriter(schema))
+	if err != nil {
+		return nil, err
+	}
+
+	st, err := buildIndex(filepath.Join(dir, filepath.FromSlash(IndexDir)), in.Passages, order)
+	if err != nil {
+		return nil, err
+	}
+	stats, err := json.MarshalIndent(st, "", "  ")
+	if err != nil {
+		return nil, err
+	}
+	stats = append(stats, '\n')
+	// The index's own files: hashed, made 0644 and flushed here.
+	indexDir := filepath.Join(dir, filepath.FromSlash(IndexDir))
+	err = filepath.WalkDir(indexDir, func(p string, d fs.DirEntry, err error) error {
+		if err != nil {
+			return err
+		}
+		if d.IsDir() {
+			return os.Chmod(p, 0o755)
+		}
+		rel, err := filepath.Rel(dir, p)
+		if err != nil {
+			return err
+		}
+		ref, err := syncFile(p)
+		m.Files[filepath.ToSlash(rel)] = ref
+		return err
+	})
+	if err != nil {
+		return nil, fmt.Errorf("index: %w", err)
+	}
+	m.Files[StatsFile], err = writeFile(dir, StatsFile, bytesWriter(stats))
+	if err != nil {
+		return nil, err
+	}
+
+	for name, data := range in.Files {
+		if err := os.MkdirAll(filepath.Join(dir, filepath.FromSlash(path.Dir(name))), 0o755); err != nil {
+			return nil, err
+		}
+		m.Files[name], err = writeFile(dir, name, bytesWriter(data))
+		if err != nil {
+			return nil, err
+		}
+	}
+
+	data, err := m.marshal()
+	if err != nil {
+		return nil, err
+	}
+	if _, err := writeFile(dir, ManifestFile, bytesWriter(data)); err != nil {
+		return nil, err
+	}
+	return m, syncDirs(dir)
+}
+
+func bytesWriter(data []byte) func(io.Writer) error {
+	return func(w io.Writer) error {
+		_, err := w.Write(data)
+		return err
+	}
+}
+
+// writeFile creates the new file name (slash path) in dir, fills it with
+// fill, flushes it to stable storage and returns its hash reference.
+func writeFile(dir, name string, fill func(io.Writer) error) (string, error) {
+	f, err := os.OpenFile(filepath.Join(dir, filepath.FromSlash(name)), os.O_WRONLY|os.O_CREATE|os.O_EXCL, 0o644)
+	if err != nil {
+		return "", err
+	}
+	h := sha256.New()
+	err = fill(io.MultiWriter(f, h))
+	if err == nil {
+		err = f.Sync()
+	}
+	if cerr := f.Close(); err == nil {
+		err = cerr
+	}
+	if err != nil {
+		return "", fmt.Errorf("%s: %w", name, err)
+	}
+	return hashRef(h), nil
+}
+
+// syncFile makes the existing file p 0644, hashes it, flushes it to stable
+// storage and returns its hash reference.
+func syncFile(p string) (string, error) {
+	if err := os.Chmod(p, 0o644); err != nil {
+		return "", err
+	}
+	f, err := os.OpenFile(p, os.O_RDWR, 0)
+	if err != nil {
+		return "", err
+	}
+	defer f.Close()
+	h := sha256.New()
+	if _, err := io.Copy(h, f); err != nil {
+		return "", err
+	}
+	if err := f.Sync(); err != nil {
+		return "", err
+	}
+	return hashRef(h), f.Close()
+}
+
+// syncDirs flushes dir and every folder under it, so that the entries
+// (file names) are on stable storage too, not only the files' contents.
+func syncDirs(dir string) error {
+	return filepath.WalkDir(dir, func(p string, d fs.DirEntry, err error) error {
+		if err != nil || !d.IsDir() {
+			return err
+		}
+		return syncDir(p)
+	})
+}
+
+func syncDir(dir string) error {
+	if runtime.GOOS == "windows" {
+		return nil // folders cannot be opened for flushing there
+	}
+	f, err := os.Open(dir)
+	if err != nil {
+		return err
+	}
+	err = f.Sync()
+	if cerr := f.Close(); err == nil {
+		err = cerr
+	}
+	return err
+}
+
+// place puts the complete, flushed bundle folder tmp in place of out and
+// removes what out held before.
+//
+// Why everything was flushed first: a rename is a change to the parent
+// folder only. File systems may write that change to disk before the data
+// of the files it names (ext4 with delayed allocation, XFS, btrfs do so; POSIX
+// does not order them), so after a crash out could name a bundle whose files
+// are empty or hold garbage: the half-written bundle this package promises
+// nobody sees. Flushing every file and folder (fsync) before the rename, and
+// the parent folder after it, makes the rename the last thing that reaches
+// the disk.
+//
+// When out exists, on Linux the two folders swap names in one atomic step
+// (renameat2 with RENAME_EXCHANGE, from golang.org/x/sys/unix), so out never
+// goes missing, even for a moment; elsewhere, or where the file system does
+// not support the swap, the old folder is renamed aside and the new one
+// renamed in, and a reader may find no out between the two renames.
+//
+// swap is exchange; tests pass one that fails to reach the fallback.
+func place(tmp, out string, swap func(a, b string) error) error {
+	parent := filepath.Dir(out)
+	if _, err := os.Lstat(out); errors.Is(err, fs.ErrNotExist) {
+		if err := os.Rename(tmp, out); err != nil {
+			return err
+		}
+		return syncDir(parent)
+	}
+	err := swap(tmp, out)
+	if err == nil {
+		// tmp now names the old bundle.
+		if err := syncDir(parent); err != nil {
+			return err
+		}
+		os.RemoveAll(tmp) // the new bundle is in place; a leftover is only litter
+		return nil
+	}
+	if !errors.Is(err, errNoExchange) {
+		return err
+	}
+	old := tmp + ".old"
+	if err := os.Rename(out, old); err != nil {
+		return err
+	}
+	if err := os.Rename(tmp, out); err != nil {
+		if rerr := os.Rename(old, out); rerr != nil {
+			return fmt.Errorf("%w (and restoring the old bundle from %s failed: %v)", err, old, rerr)
+		}
+		return err
+	}
+	if err := syncDir(parent); err != nil {
+		return err
+	}
+	os.RemoveAll(old)
+	return nil
+}
