@@ -1,0 +1,100 @@
+// Command kbc-bench builds a bundle from each real documentation corpus and
+// prints one row per corpus: files, MB, passages, seconds, MB/s and peak
+// resident memory. Each build runs as its own kbc process, so the peak RSS
+// is that build's alone.
+//
+// Usage:
+//
+//	go run ./cmd/kbc-bench -corpora DIR [-runs 3] [-kbc PATH]
+//
+// DIR is the folder ../shared/corpora/get-corpora.sh filled. Without -kbc
+// the program builds ./cmd/kbc into a temporary folder first. With several
+// runs it reports the median time and the largest peak RSS.
+package main
+
+import (
+	"encoding/json"
+	"flag"
+	"fmt"
+	"io"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"sort"
+	"syscall"
+	"time"
+)
+
+func main() {
+	corpora := flag.String("corpora", os.Getenv("KBC_CORPORA"), "folder of corpora (default $KBC_CORPORA)")
+	runs := flag.Int("runs", 1, "builds per corpus; the median time is reported")
+	kbc := flag.String("kbc", "", "kbc binary to measure (default: build ./cmd/kbc)")
+	flag.Parse()
+	if err := run(*corpora, *kbc, *runs, os.Stdout); err != nil {
+		fmt.Fprintln(os.Stderr, "kbc-bench:", err)
+		os.Exit(1)
+	}
+}
+
+func run(corpora, kbc string, runs int, w io.Writer) error {
+	if corpora == "" {
+		return fmt.Errorf("no corpora folder: pass -corpora or set KBC_CORPORA")
+	}
+	tmp, err := os.MkdirTemp("", "kbc-bench-")
+	if err != nil {
+		return err
+	}
+	defer os.RemoveAll(tmp)
+	if kbc == "" {
+		kbc = filepath.Join(tmp, "kbc")
+		cmd := exec.Command("go", "build", "-o", kbc, "./cmd/kbc")
+		cmd.Stdout, cmd.Stderr = os.Stderr, os.Stderr
+		if err := cmd.Run(); err != nil {
+			return fmt.Errorf("building kbc: %w", err)
+		}
+	}
+	entries, err := os.ReadDir(corpora)
+	if err != nil {
+		return err
+	}
+	fmt.Fprintf(w, "| corpus | files | MB | documents | passages | tokens | seconds | MB/s | peak RSS MB |\n")
+	fmt.Fprintf(w, "|---|---|---|---|---|---|---|---|---|\n")
+	for _, e := range entries {
+		if !e.IsDir() || e.Name()[0] == '.' {
+			continue
+		}
+		src := filepath.Join(corpora, e.Name())
+		var times []float64
+		var peak int64
+		var sum struct {
+			Stats struct {
+				Files, Documents, Passages, Tokens int
+				SourceBytes                        int64 `json:"source_bytes"`
+			}
+		}
+		for i := 0; i < runs; i++ {
+			out := filepath.Join(tmp, e.Name())
+			cmd := exec.Command(kbc, "build", src, "-o", out, "--json")
+			cmd.Stderr = io.Discard // per-file warnings; counted in the summary
+			start := time.Now()
+			data, err := cmd.Output()
+			if err != nil {
+				return fmt.Errorf("%s: %v", e.Name(), err)
+			}
+			times = append(times, time.Since(start).Seconds())
+			if ru, ok := cmd.ProcessState.SysUsage().(*syscall.Rusage); ok && ru.Maxrss > peak {
+				peak = ru.Maxrss // kilobytes on Linux
+			}
+			if err := json.Unmarshal(data, &sum); err != nil {
+				return fmt.Errorf("%s: reading summary: %v", e.Name(), err)
+			}
+		}
+		sort.Float64s(times)
+		sec := times[len(times)/2]
+		mb := float64(sum.Stats.SourceBytes) / (1 << 20)
+		fmt.Fprintf(w, "| %s | %d | %.1f | %d | %d | %d | %.2f | %.1f | %.0f |\n",
+			e.Name(), sum.Stats.Files, mb, sum.Stats.Documents, sum.Stats.Passages, sum.Stats.Tokens,
+			sec, mb/sec, float64(peak)/1024)
+	}
+	return nil
+}

@@ -1,0 +1,288 @@
+package main
+
+import (
+	"bufio"
+	"bytes"
+	"encoding/json"
+	"flag"
+	"fmt"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+
+	"github.com/kbc-project/kbc/build"
+	"github.com/kbc-project/kbc/bundle"
+	"github.com/kbc-project/kbc/sources"
+)
+
+var updateGolden = flag.Bool("update-golden", false, "rewrite testdata/golden from the example knowledge base")
+
+// readPassages reads a bundle's passages.jsonl.
+func readPassages(t *testing.T, dir string) []build.Passage {
+	t.Helper()
+	f, err := os.Open(filepath.Join(dir, "passages.jsonl"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	var out []build.Passage
+	sc := bufio.NewScanner(f)
+	sc.Buffer(nil, 1<<26)
+	for sc.Scan() {
+		var p build.Passage
+		if err := json.Unmarshal(sc.Bytes(), &p); err != nil {
+			t.Fatalf("passages.jsonl line %d: %v", len(out)+1, err)
+		}
+		out = append(out, p)
+	}
+	if err := sc.Err(); err != nil {
+		t.Fatal(err)
+	}
+	return out
+}
+
+func mustBuild(t *testing.T, src, out string, extra ...string) (stdout, stderr string) {
+	t.Helper()
+	var o, e bytes.Buffer
+	if code := run(append([]string{"build", src, "-o", out}, extra...), &o, &e); code != exitOK {
+		t.Fatalf("kbc build %s: exit %d\n%s", src, code, e.String())
+	}
+	return o.String(), e.String()
+}
+
+// stableManifest returns manifest.json without the fields that change with
+// the clock or the commit of this repository.
+func stableManifest(t *testing.T, dir string) []byte {
+	t.Helper()
+	data, err := os.ReadFile(filepath.Join(dir, "manifest.json"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	var m map[string]any
+	if err := json.Unmarshal(data, &m); err != nil {
+		t.Fatal(err)
+	}
+	for _, k := range []string{"built_at", "source_commit", "source_dirty"} {
+		delete(m, k)
+	}
+	out, _ := json.MarshalIndent(m, "", "  ")
+	return append(out, '\n')
+}
+
+// TestExampleGolden pins the bundle built from the example knowledge base.
+// Rewrite with: go test ./cmd/kbc -run TestExampleGolden -update-golden
+func TestExampleGolden(t *testing.T) {
+	out := filepath.Join(t.TempDir(), "b")
+	t.Setenv("SOURCE_DATE_EPOCH", "1767225600")
+	mustBuild(t, "../../examples/handbook", out)
+	for name, got := range map[string][]byte{
+		"passages.jsonl": mustRead(t, filepath.Join(out, "passages.jsonl")),
+		"manifest.json":  stableManifest(t, out),
+	} {
+		golden := filepath.Join("../../testdata/golden/handbook", name)
+		if *updateGolden {
+			if err := os.MkdirAll(filepath.Dir(golden), 0o755); err != nil {
+				t.Fatal(err)
+			}
+			if err := os.WriteFile(golden, got, 0o644); err != nil {
+				t.Fatal(err)
+			}
+			continue
+		}
+		want, err := os.ReadFile(golden)
+		if err != nil {
+			t.Fatalf("%v (rewrite with -update-golden)", err)
+		}
+		if !bytes.Equal(got, want) {
+			t.Errorf("%s differs from %s (rewrite with -update-golden after checking the diff)", name, golden)
+		}
+	}
+}
+
+// TestExampleQueries checks that the questions in examples/queries.jsonl,
+// written with the handbook, find the section that answers them. A hit
+// answers when it is that section (same path and anchor) or holds the
+// section's heading line, as when a tiny section joined its neighbour.
+// BM25 is lexical: a question worded far from the page can miss (the
+// handbook's questions deliberately avoid the headings' words), so the test
+// wants at least 60% answered in the top 3 and 80% in the top 10, and logs
+// every miss. The floors are our judgement; the log shows the real figures.
+func TestExampleQueries(t *testing.T) {
+	const kb = "../../examples/handbook"
+	out := filepath.Join(t.TempDir(), "b")
+	mustBuild(t, kb, out)
+	b, err := bundle.Open(out)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer b.Close()
+	data := mustRead(t, "../../examples/queries.jsonl")
+	var n, top3, top10 int
+	var rr float64
+	for i, line := range strings.Split(strings.TrimSpace(string(data)), "\n") {
+		var q struct{ Query, Expect string }
+		if err := json.Unmarshal([]byte(line), &q); err != nil {
+			t.Fatalf("queries.jsonl:%d: %v", i+1, err)
+		}
+		path, anchor, _ := strings.Cut(q.Expect, "#")
+		heading := headingLine(t, filepath.Join(kb, path), anchor)
+		hits, err := b.Search(q.Query, 10)
+		if err != nil {
+			t.Fatal(err)
+		}
+		n++
+		rank := 0
+		var got []string
+		for j, h := range hits {
+			got = append(got, fmt.Sprintf("%s#%s:%d-%d", h.Path, h.Anchor, h.Line, h.EndLine))
+			if rank == 0 && h.Path == path && (h.Anchor == anchor || h.Line <= heading && heading <= h.EndLine) {
+				rank = j + 1
+			}
+		}
+		switch {
+		case rank == 0:
+			t.Logf("queries.jsonl:%d: %q: %s (line %d) not in the top 10: %q", i+1, q.Query, q.Expect, heading, got)
+		case rank > 3:
+			t.Logf("queries.jsonl:%d: %q: %s at rank %d", i+1, q.Query, q.Expect, rank)
+		}
+		if rank > 0 {
+			rr += 1 / float64(rank)
+		}
+		if rank > 0 && rank <= 3 {
+			top3++
+		}
+		if rank > 0 {
+			top10++
+		}
+	}
+	t.Logf("%d of %d questions answered in the top 3; mean reciprocal rank %.3f", top3, n, rr/float64(n))
+	if float64(top3) < 0.6*float64(n) || float64(top10) < 0.8*float64(n) {
+		t.Errorf("%d of %d questions answered in the top 3 and %d in the top 10; want at least 60%% and 80%%", top3, n, top10)
+	}
+}
+
+// headingLine returns the source line of the heading with the given anchor.
+func headingLine(t *testing.T, file, anchor string) int {
+	t.Helper()
+	doc, err := sources.Parse(filepath.Base(file), mustRead(t, file))
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, h := range doc.Headings {
+		if h.Anchor == anchor {
+			return h.Line
+		}
+	}
+	t.Fatalf("%s has no heading with anchor %q", file, anchor)
+	return 0
+}
+
+func mustRead(t *testing.T, p string) []byte {
+	t.Helper()
+	data, err := os.ReadFile(p)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return data
+}
+
+// navLines are lines that only site navigation or page chrome produce; no
+// passage of a real corpus may hold one as a whole line.
+var navLines = []string{
+	"previous topic", "next topic", "this page", "show source", "quick search",
+	"navigation", "table of contents", "report a bug", "edit this page",
+	"index | modules |", "theme auto light dark", "skip to main content",
+}
+
+// TestCorpora builds every real corpus in $KBC_CORPORA with default
+// settings and checks what a user relies on: every passage traces back to
+// its file and lines, no page chrome gets in, two builds give the same
+// bundle id, and verify catches a flipped byte.
+func TestCorpora(t *testing.T) {
+	dir := os.Getenv("KBC_CORPORA")
+	if dir == "" {
+		t.Skip("KBC_CORPORA is not set: fetch the corpora with ../shared/corpora/get-corpora.sh DIR and set KBC_CORPORA=DIR")
+	}
+	entries, err := os.ReadDir(dir)
+	if err != nil {
+		t.Skipf("KBC_CORPORA=%s: %v", dir, err)
+	}
+	for _, e := range entries {
+		if !e.IsDir() || strings.HasPrefix(e.Name(), ".") {
+			continue
+		}
+		src := filepath.Join(dir, e.Name())
+		t.Run(e.Name(), func(t *testing.T) {
+			out := filepath.Join(t.TempDir(), "b")
+			mustBuild(t, src, out)
+			ps := readPassages(t, out)
+			if len(ps) == 0 {
+				t.Fatal("no passages")
+			}
+			lines := map[string]int{}
+			for _, p := range ps {
+				n, ok := lines[p.Path]
+				if !ok {
+					data, err := os.ReadFile(filepath.Join(src, filepath.FromSlash(p.Path)))
+					if err != nil {
+						t.Fatalf("passage %s names %s: %v", p.ID, p.Path, err)
+					}
+					n = bytes.Count(data, []byte("\n")) + 1
+					lines[p.Path] = n
+				}
+				if p.Line < 1 || p.Line > p.EndLine || p.EndLine > n {
+					t.Errorf("%s:%d-%d: line range outside the file's %d lines", p.Path, p.Line, p.EndLine, n)
+				}
+				if strings.TrimSpace(p.Text) == "" {
+					t.Errorf("%s:%d: empty passage", p.Path, p.Line)
+				}
+				if p.Tokens > build.DefaultSettings().MaxTokens {
+					t.Errorf("%s:%d: %d tokens, over the budget", p.Path, p.Line, p.Tokens)
+				}
+				inCode := false
+				for _, l := range strings.Split(p.Text, "\n") {
+					if strings.HasPrefix(l, "```") {
+						inCode = !inCode
+						continue
+					}
+					if inCode {
+						continue
+					}
+					low := strings.ToLower(strings.TrimSpace(l))
+					for _, nav := range navLines {
+						if low == nav {
+							t.Errorf("%s:%d: navigation line %q in a passage", p.Path, p.Line, l)
+						}
+					}
+				}
+			}
+			m1, err := bundle.ReadManifest(out)
+			if err != nil {
+				t.Fatal(err)
+			}
+			out2 := filepath.Join(t.TempDir(), "b2")
+			mustBuild(t, src, out2)
+			m2, err := bundle.ReadManifest(out2)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if m1.BundleID != m2.BundleID {
+				t.Errorf("two builds, two bundle ids: %s and %s", m1.BundleID, m2.BundleID)
+			}
+			if bad, err := bundle.Verify(out); err != nil || len(bad) != 0 {
+				t.Fatalf("verify of a fresh bundle: %v %v", bad, err)
+			}
+			p := filepath.Join(out, "passages.jsonl")
+			data := mustRead(t, p)
+			data[len(data)/2] ^= 1
+			if err := os.WriteFile(p, data, 0o644); err != nil {
+				t.Fatal(err)
+			}
+			if bad, err := bundle.Verify(out); err != nil || len(bad) != 1 || bad[0].File != "passages.jsonl" {
+				t.Errorf("verify after one flipped bit = %v, %v; want passages.jsonl named", bad, err)
+			}
+			t.Logf("%d passages from %d files", len(ps), len(lines))
+		})
+	}
+}

@@ -1,0 +1,82 @@
+// Command kbc compiles a documentation folder into a retrieval bundle:
+// clean, dated passages with a BM25 search index and a manifest of hashes.
+//
+// Usage:
+//
+//	kbc build SRC -o OUT [--strict] [--include GLOB] [--exclude GLOB]
+//	kbc query OUT "question" [-k 10] [--json]
+//	kbc verify OUT [--json]
+//	kbc version
+//
+// Run "kbc COMMAND --help" for the flags of one command. Exit codes: 0 ok,
+// 1 failure, 2 bad usage.
+package main
+
+import (
+	"fmt"
+	"io"
+	"os"
+)
+
+// version is the tool version recorded in every bundle manifest.
+const version = "0.1.0"
+
+// Exit codes shared by every command.
+const (
+	exitOK      = 0
+	exitFailure = 1
+	exitUsage   = 2
+)
+
+func main() {
+	os.Exit(run(os.Args[1:], os.Stdout, os.Stderr))
+}
+
+// command is one sub-command: its name, a line for the overview, and the
+// function that runs it with the arguments after its name.
+type command struct {
+	name, summary string
+	run           func(args []string, stdout, stderr io.Writer) int
+}
+
+func commands() []command {
+	return []command{
+		{"build", "compile a docs folder into a bundle", runBuild},
+		{"query", "search a bundle", runQuery},
+		{"verify", "re-hash a bundle's files against its manifest", runVerify},
+		{"version", "print the version", func(_ []string, stdout, _ io.Writer) int {
+			fmt.Fprintf(stdout, "kbc %s\n", version)
+			return exitOK
+		}},
+	}
+}
+
+func run(args []string, stdout, stderr io.Writer) int {
+	if len(args) == 0 {
+		usage(stderr)
+		return exitUsage
+	}
+	switch args[0] {
+	case "-h", "-help", "--help", "help":
+		usage(stdout)
+		return exitOK
+	case "-version", "--version":
+		args[0] = "version"
+	}
+	for _, c := range commands() {
+		if c.name == args[0] {
+			return c.run(args[1:], stdout, stderr)
+		}
+	}
+	fmt.Fprintf(stderr, "kbc: unknown command %q\n\n", args[0])
+	usage(stderr)
+	return exitUsage
+}
+
+func usage(w io.Writer) {
+	fmt.Fprintf(w, "kbc compiles a documentation folder into a retrieval bundle.\n\nUsage: kbc COMMAND [arguments]\n\nCommands:\n")
+	for _, c := range commands() {
+		fmt.Fprintf(w, "  %-8s %s\n", c.name, c.summary)
+	}
+	fmt.Fprintf(w, "\nExample:\n  kbc build examples/handbook -o out && kbc query out \"door seal check interval\"\n\nRun \"kbc COMMAND --help\" for the flags of one command.\n")
+}
