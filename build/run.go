@@ -34,6 +34,7 @@ func DefaultOptions() Options {
 type Stats struct {
 	Files              int   `json:"files"`               // source files found
 	Documents          int   `json:"documents"`           // files that became documents
+	Empty              int   `json:"empty"`               // documents with front matter only, so no passage
 	Skipped            int   `json:"skipped"`             // files left out because of a problem
 	Warnings           int   `json:"warnings"`            // problems, skipped files included
 	Passages           int   `json:"passages"`            // passages made
@@ -108,6 +109,9 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 		}
 		res.Problems = append(res.Problems, d.Warnings...)
 		res.Stats.SourceBytes += d.Size
+		if len(d.Blocks) == 0 {
+			res.Stats.Empty++
+		}
 		kept = append(kept, d)
 	}
 	docs = kept
@@ -170,9 +174,10 @@ func readDocument(fsys fs.FS, f sources.File, maxSize int64) (*sources.Document,
 		return nil, &sources.Error{Path: f.Path, Msg: err.Error(), Err: err}
 	}
 	doc.ModTime = f.ModTime.UTC()
+	hadText := len(doc.Blocks) > 0
 	Normalize(doc)
-	if len(doc.Blocks) == 0 {
-		return nil, &sources.Error{Path: f.Path, Line: 1, Msg: "no body text"}
+	if hadText && len(doc.Blocks) == 0 {
+		return nil, sources.ErrNoText(f.Path)
 	}
 	return doc, nil
 }

@@ -196,8 +196,8 @@ func TestMarkdownBlocks(t *testing.T) {
 		t.Run(tc.name, func(t *testing.T) {
 			doc, err := Parse(tc.file, []byte(tc.src))
 			if tc.want == nil {
-				if err == nil {
-					t.Fatalf("got blocks %+v, want none", doc.Blocks)
+				if err != nil || len(doc.Blocks) != 0 {
+					t.Fatalf("got blocks %+v, %v; want none and no error", doc, err)
 				}
 				return
 			}
@@ -334,9 +334,15 @@ func TestMarkdownWarnings(t *testing.T) {
 	}
 }
 
+// TestMarkdownNoBody: a page with front matter only is a normal landing
+// page, read with no blocks; an HTML page with no text is bad input.
 func TestMarkdownNoBody(t *testing.T) {
-	_, err := Parse("docs/empty.md", []byte("---\ntitle: x\n---\n\n<!-- nothing -->\n"))
-	if err == nil || err.Error() != "docs/empty.md:1: no body text" {
+	doc, err := Parse("docs/empty.md", []byte("---\ntitle: x\n---\n\n<!-- nothing -->\n"))
+	if err != nil || len(doc.Blocks) != 0 || doc.Title != "x" {
+		t.Errorf("got %+v, %v; want an empty document titled x", doc, err)
+	}
+	_, err = Parse("docs/empty.html", []byte("<title>x</title><nav><a href=a>a</a></nav>"))
+	if err == nil || err.Error() != "docs/empty.html:1: no body text" {
 		t.Errorf("got %v", err)
 	}
 }

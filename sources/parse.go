@@ -26,9 +26,10 @@ func KindOf(name string) (Kind, bool) {
 
 // Parse turns the bytes of the file at name (slash-separated, relative to
 // the source root) into a Document. It reports a *Error, and no document,
-// when the file cannot be used at all (binary content, no body text);
+// when the file cannot be used at all (binary content, an HTML page with no body text);
 // smaller problems are kept in Document.Warnings and the document is still
-// returned. Parse never panics on bad input.
+// returned. A Markdown or MDX page with no body text is returned with no
+// blocks. Parse never panics on bad input.
 func Parse(name string, src []byte) (doc *Document, err error) {
 	kind, ok := KindOf(name)
 	if !ok {
@@ -67,8 +68,12 @@ func Parse(name string, src []byte) (doc *Document, err error) {
 	if err != nil {
 		return nil, err
 	}
-	if len(doc.Blocks) == 0 {
-		return nil, &Error{Path: name, Line: 1, Msg: "no body text"}
+	// An HTML page with no text left means extraction found nothing worth
+	// keeping (a redirect stub, a page of links, a script-rendered app).
+	// A Markdown page with front matter only is normal (a section landing
+	// page that the site renders from its children) and comes back empty.
+	if kind == HTML && len(doc.Blocks) == 0 {
+		return nil, ErrNoText(name)
 	}
 	return doc, nil
 }
@@ -149,4 +154,10 @@ func looksLikeMDX(src []byte) bool {
 		}
 	}
 	return false
+}
+
+// ErrNoText is the error for an HTML page, or a page emptied by
+// normalisation, that has no body text left.
+func ErrNoText(name string) *Error {
+	return &Error{Path: name, Line: 1, Msg: "no body text"}
 }

@@ -104,6 +104,7 @@ func runBuild(args []string, stdout, stderr io.Writer) int {
 	commit, dirty := build.SourceCommit(src)
 	counts := map[string]int{
 		"documents":           res.Stats.Documents,
+		"empty_documents":     res.Stats.Empty,
 		"passages":            res.Stats.Passages,
 		"tokens":              res.Stats.Tokens,
 		"skipped":             res.Stats.Skipped,
@@ -149,7 +150,11 @@ type summary struct {
 func (s summary) print(w io.Writer) {
 	st := s.Stats
 	fmt.Fprintf(w, "built %s -> %s\n", s.Source, s.Out)
-	fmt.Fprintf(w, "  documents    %d read, %d skipped (%s)\n", st.Documents, st.Skipped, sizeString(st.SourceBytes))
+	fmt.Fprintf(w, "  documents    %d read, %d skipped (%s)", st.Documents, st.Skipped, sizeString(st.SourceBytes))
+	if st.Empty > 0 {
+		fmt.Fprintf(w, "; %d with front matter only", st.Empty)
+	}
+	fmt.Fprintln(w)
 	fmt.Fprintf(w, "  passages     %d", st.Passages)
 	if st.SplitPassages > 0 {
 		fmt.Fprintf(w, " (%d cut from blocks over the budget)", st.SplitPassages)
