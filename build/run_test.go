@@ -1,0 +1,66 @@
+package build
+
+import (
+	"context"
+	"io/fs"
+	"strings"
+	"testing"
+	"testing/fstest"
+)
+
+// failFS is an fstest.MapFS whose Open fails for one name, standing in for
+// an unreadable file where permissions cannot produce one (as root).
+type failFS struct {
+	fstest.MapFS
+	bad string
+}
+
+func (f failFS) Open(name string) (fs.File, error) {
+	if name == f.bad {
+		return nil, &fs.PathError{Op: "open", Path: name, Err: fs.ErrPermission}
+	}
+	return f.MapFS.Open(name)
+}
+
+func TestRunGoesOnAfterBadFiles(t *testing.T) {
+	fsys := failFS{bad: "locked.md", MapFS: fstest.MapFS{
+		"good.md":      {Data: []byte("# Good\n\nA page that builds.\n")},
+		"locked.md":    {Data: []byte("# Locked\n\nNever read.\n")},
+		"binary.md":    {Data: []byte("# x\x00\x01")},
+		"empty.html":   {Data: []byte("<nav><a href=/>Home</a></nav>")},
+		"landing.md":   {Data: []byte("---\ntitle: Guides\n---\n")},
+		"frontbad.md":  {Data: []byte("---\ntitle: [\n---\n# Kept\n\nBody kept.\n")},
+		"notes/big.md": {Data: []byte(strings.Repeat("word ", 400))},
+	}}
+	opts := DefaultOptions()
+	opts.Walk.MaxSize = 1000
+	res, err := Run(context.Background(), fsys, opts)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var got []string
+	for _, p := range res.Problems {
+		got = append(got, p.Error())
+	}
+	want := []string{
+		"binary.md:1: binary content in a text file (NUL byte)",
+		"empty.html:1: no body text",
+		"frontbad.md:2: front matter: invalid YAML: did not find expected node content",
+		"locked.md: cannot read: permission denied",
+		"notes/big.md: file is 2.0 kB, over the 1000 bytes size limit; skipped",
+	}
+	if strings.Join(got, "\n") != strings.Join(want, "\n") {
+		t.Errorf("problems:\n%s\nwant:\n%s", strings.Join(got, "\n"), strings.Join(want, "\n"))
+	}
+	st := res.Stats
+	if st.Documents != 3 || st.Skipped != 4 || st.Empty != 1 || st.Warnings != 5 || st.Files != 7 {
+		t.Errorf("stats = %+v", st)
+	}
+	paths := map[string]bool{}
+	for _, p := range res.Passages {
+		paths[p.Path] = true
+	}
+	if !paths["good.md"] || !paths["frontbad.md"] || len(paths) != 2 {
+		t.Errorf("passages from %v, want good.md and frontbad.md", paths)
+	}
+}
