@@ -2,6 +2,7 @@ package sources
 
 import (
 	"bytes"
+	"errors"
 	"fmt"
 	"math"
 	"sort"
@@ -9,6 +10,7 @@ import (
 	"strings"
 	"time"
 
+	"github.com/BurntSushi/toml"
 	"github.com/adrg/frontmatter"
 )
 
@@ -84,7 +86,7 @@ func lineAt(src []byte, off int) ([]byte, int) {
 // library. Its first line is line 1 of the file.
 func decodeFrontMatter(name string, block []byte, format string) (front map[string]any, err error) {
 	defer func() {
-		// yaml.v2 and BurntSushi/toml v0.3.1 report some bad input by
+		// yaml.v2 (and older BurntSushi/toml releases) report some bad input by
 		// panicking; a bad front matter block must cost a warning only.
 		if r := recover(); r != nil {
 			front, err = nil, &Error{Path: name, Line: 1, Msg: fmt.Sprintf("front matter: %s decoder failed: %v", strings.ToUpper(format), r)}
@@ -95,6 +97,11 @@ func decodeFrontMatter(name string, block []byte, format string) (front map[stri
 	// formats pick YAML for "---" and TOML for "+++".
 	if _, perr := frontmatter.Parse(bytes.NewReader(block), &v); perr != nil {
 		line, msg := decodeErrorLine(perr.Error(), format)
+		var te toml.ParseError
+		if errors.As(perr, &te) {
+			// BurntSushi/toml v1 gives the position in a typed error.
+			line, msg = te.Position.Line, te.Message
+		}
 		// The data the decoders see starts on line 2 of the file (line 1
 		// is the opening delimiter), so their line N is file line N+1.
 		// yaml.v2 v2.3.0 leaves the line out when its 0-based mark line
@@ -119,8 +126,8 @@ func decodeFrontMatter(name string, block []byte, format string) (front map[stri
 
 // decodeErrorLine takes the line number out of a decoder's message:
 // yaml.v2 writes "yaml: line 3: message" (or "yaml: unmarshal errors:\n
-// line 3: message"), BurntSushi/toml v0.3.1 writes "Near line 3 (last key
-// parsed 'k'): message". Line is 0 when the message has none.
+// line 3: message"), BurntSushi/toml before v1 wrote "Near line 3 (last
+// key parsed 'k'): message". Line is 0 when the message has none.
 func decodeErrorLine(s, format string) (line int, msg string) {
 	if i := strings.IndexByte(s, '\n'); i >= 0 && format == "yaml" {
 		// unmarshal errors: keep the first one.
