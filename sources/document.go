@@ -39,6 +39,7 @@ type Document struct {
 	Front       map[string]any `json:"front,omitempty"`
 	FrontFormat string         `json:"front_format,omitempty"` // "yaml", "toml" or ""
 	FrontLines  int            `json:"front_lines,omitempty"`  // source lines taken by front matter
+	FrontKeys   map[string]int `json:"front_keys,omitempty"`   // top-level front matter key -> its 1-based line in the file
 	Headings    []Heading      `json:"headings,omitempty"`     // document order
 	Blocks      []Block        `json:"blocks,omitempty"`       // document order, offsets rising
 	Hash        string         `json:"hash"`                   // SHA-256 (hex) of the raw file bytes

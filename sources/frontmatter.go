@@ -241,13 +241,32 @@ func normaliseFront(v any) any {
 	case float32:
 		return finite(float64(x))
 	case time.Time:
-		return x.Format(time.RFC3339Nano)
+		return frontTime(x)
 	case []byte:
 		return string(x)
 	case nil, string, bool, int, int64, int32, uint, uint64, uint32:
 		return x
 	}
 	return scalarString(v)
+}
+
+// frontTime spells a decoded time as text. TOML's local dates and times
+// (no zone written) come from BurntSushi/toml in zones named
+// "datetime-local", "date-local" and "time-local" carrying the machine's
+// offset; reading them as UTC wall time keeps a bundle the same on every
+// machine: a local date-time becomes RFC 3339 in UTC, a local date stays
+// "YYYY-MM-DD" (which dates read as midnight UTC) and a local time stays
+// "HH:MM:SS".
+func frontTime(t time.Time) string {
+	switch t.Location().String() {
+	case "datetime-local":
+		return time.Date(t.Year(), t.Month(), t.Day(), t.Hour(), t.Minute(), t.Second(), t.Nanosecond(), time.UTC).Format(time.RFC3339Nano)
+	case "date-local":
+		return t.Format("2006-01-02")
+	case "time-local":
+		return t.Format("15:04:05.999999999")
+	}
+	return t.Format(time.RFC3339Nano)
 }
 
 func finite(f float64) any {
@@ -273,4 +292,130 @@ func scalarString(v any) string {
 		return x.Format(time.RFC3339Nano)
 	}
 	return fmt.Sprint(v)
+}
+
+// frontKeyLines finds the 1-based line of each top-level key of a front
+// matter block; block is the file from its start to the end of the closing
+// delimiter line, format is "yaml" or "toml" and front the decoded keys.
+// A line scan is enough: top-level YAML keys start at column 0 (the
+// continuation lines of their values are indented, YAML 1.2 section 8.2.2
+// and 7.3.3, from memory), and TOML keys are top level until the first
+// [table] header (TOML v1.0.0, "Table"). Only keys present in front are
+// kept, and the first line wins, so a line the scan misreads (inside a
+// TOML multi-line array, say) cannot invent a key.
+func frontKeyLines(block []byte, format string, front map[string]any) map[string]int {
+	if len(front) == 0 {
+		return nil
+	}
+	keys := make(map[string]int, len(front))
+	multi := "" // closing delimiter of an open TOML multi-line string
+	for off, line := 0, 1; off < len(block); line++ {
+		l, next := lineAt(block, off)
+		off = next
+		if line == 1 {
+			continue // the opening delimiter
+		}
+		l = bytes.TrimRight(l, "\r\n")
+		var key string
+		var ok bool
+		switch {
+		case format == "yaml":
+			key, ok = yamlTopKey(l)
+		case multi != "":
+			if bytes.Contains(l, []byte(multi)) {
+				multi = ""
+			}
+			continue
+		default:
+			t := bytes.TrimSpace(l)
+			if len(t) > 0 && t[0] == '[' {
+				return keys // a table header ends the top level
+			}
+			var rest []byte
+			key, rest, ok = tomlTopKey(t)
+			if ok {
+				rest = bytes.TrimSpace(rest)
+				for _, q := range []string{`"""`, `'''`} {
+					if bytes.HasPrefix(rest, []byte(q)) && !bytes.Contains(rest[3:], []byte(q)) {
+						multi = q
+					}
+				}
+			}
+		}
+		if _, seen := keys[key]; ok && !seen {
+			if _, in := front[key]; in {
+				keys[key] = line
+			}
+		}
+	}
+	return keys
+}
+
+// yamlTopKey reads the key of a "key: value" line that starts at column 0.
+func yamlTopKey(l []byte) (string, bool) {
+	if len(l) == 0 || l[0] == ' ' || l[0] == '\t' || l[0] == '#' {
+		return "", false
+	}
+	if l[0] == '"' || l[0] == '\'' {
+		key, rest, ok := quotedKey(l)
+		rest = bytes.TrimLeft(rest, " \t")
+		return key, ok && len(rest) > 0 && rest[0] == ':'
+	}
+	// A plain key ends at the first ':' followed by a space or the end
+	// of the line ("a:b: c" has the key "a:b").
+	for i := 0; i < len(l); i++ {
+		if l[i] == ':' && (i+1 == len(l) || l[i+1] == ' ' || l[i+1] == '\t') {
+			key := string(bytes.TrimRight(l[:i], " \t"))
+			return key, key != "" && key[0] != '-' && key[0] != '?'
+		}
+	}
+	return "", false
+}
+
+// tomlTopKey reads the key of a "key = value" line, already trimmed. A
+// dotted key ("a.b = 1") gives its first part, the top-level key.
+func tomlTopKey(t []byte) (key string, rest []byte, ok bool) {
+	if len(t) == 0 {
+		return "", nil, false
+	}
+	if t[0] == '"' || t[0] == '\'' {
+		key, rest, ok = quotedKey(t)
+	} else {
+		i := 0
+		for i < len(t) && (t[i] == '_' || t[i] == '-' || '0' <= t[i] && t[i] <= '9' || 'a' <= t[i]|0x20 && t[i]|0x20 <= 'z') {
+			i++
+		}
+		key, rest, ok = string(t[:i]), t[i:], i > 0
+	}
+	rest = bytes.TrimLeft(rest, " \t")
+	if !ok || len(rest) == 0 || rest[0] != '=' && rest[0] != '.' {
+		return "", nil, false
+	}
+	if rest[0] == '.' {
+		return key, nil, true
+	}
+	return key, rest[1:], true
+}
+
+// quotedKey reads a key in double quotes (backslash escapes a quote) or
+// single quotes at the start of l; escapes other than \" and \\ are kept
+// as written, which is enough to find the key's end.
+func quotedKey(l []byte) (key string, rest []byte, ok bool) {
+	q := l[0]
+	var b []byte
+	for i := 1; i < len(l); i++ {
+		switch {
+		case l[i] == '\\' && q == '"' && i+1 < len(l) && (l[i+1] == '"' || l[i+1] == '\\'):
+			b = append(b, l[i+1])
+			i++
+		case l[i] == q && q == '\'' && i+1 < len(l) && l[i+1] == '\'':
+			b = append(b, '\'') // YAML's '' escape; TOML keys cannot hold '
+			i++
+		case l[i] == q:
+			return string(b), l[i+1:], true
+		default:
+			b = append(b, l[i])
+		}
+	}
+	return "", nil, false
 }

@@ -43,6 +43,7 @@ func parseMarkdown(doc *Document, src []byte, mdx bool) error {
 	doc.Front, doc.FrontFormat = front, format
 	if format != "" {
 		doc.FrontLines = li.Line(bodyStart - 1)
+		doc.FrontKeys = frontKeyLines(src[:bodyStart], format, front)
 	}
 	body := src[bodyStart:]
 	w := &mdWalker{doc: doc, base: bodyStart, li: li, cur: -1}

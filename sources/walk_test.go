@@ -7,6 +7,7 @@ import (
 	"strings"
 	"testing"
 	"testing/fstest"
+	"time"
 )
 
 func paths(files []File) []string {
@@ -170,6 +171,31 @@ func TestLooksLikeMDX(t *testing.T) {
 	for _, tc := range tests {
 		if got := looksLikeMDX([]byte(tc.src)); got != tc.want {
 			t.Errorf("looksLikeMDX(%q) = %v, want %v", tc.src, got, tc.want)
+		}
+	}
+}
+
+// TestTOMLLocalDates: TOML v1.0.0 ("Local Date-Time", "Local Date") leaves
+// the zone of such values to the reader; kbc reads them as UTC so that the
+// result does not depend on the machine's zone. The decoder fixes the
+// zone at start-up, so other zones are simulated with the zone names it
+// uses (BurntSushi/toml v1.6.0 internal/tz.go).
+func TestTOMLLocalDates(t *testing.T) {
+	front, _, _, err := SplitFrontMatter("a.md", []byte("+++\nupdated = 2026-08-19\nat = 2026-08-19T14:05:00\nzoned = 2026-08-19T14:05:00+02:00\n+++\n# x\n"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if front["updated"] != "2026-08-19" || front["at"] != "2026-08-19T14:05:00Z" || front["zoned"] != "2026-08-19T14:05:00+02:00" {
+		t.Errorf("front = %v", front)
+	}
+	for _, off := range []int{9 * 3600, -7 * 3600} {
+		at := time.Date(2026, 8, 19, 14, 5, 0, 0, time.FixedZone("datetime-local", off))
+		date := time.Date(2026, 8, 19, 0, 0, 0, 0, time.FixedZone("date-local", off))
+		if got := frontTime(at); got != "2026-08-19T14:05:00Z" {
+			t.Errorf("offset %d: local date-time = %s", off, got)
+		}
+		if got := frontTime(date); got != "2026-08-19" {
+			t.Errorf("offset %d: local date = %s", off, got)
 		}
 	}
 }
