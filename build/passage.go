@@ -1,5 +1,7 @@
 package build
 
+import "time"
+
 // Passage is one retrievable unit of text: a section of a document, or part
 // of one, within the token budget.
 type Passage struct {
@@ -14,4 +16,18 @@ type Passage struct {
 	Tokens  int      `json:"tokens"`           // BPE tokens in Text
 	Hash    string   `json:"hash"`             // SHA-256 (hex) of Text
 	Split   bool     `json:"split,omitempty"`  // a block over the budget was cut at line boundaries
+
+	// Freshness, inherited from the passage's document (see build/fresh).
+	Updated       time.Time  `json:"updated,omitzero"`         // last change
+	UpdatedSource string     `json:"updated_source,omitempty"` // "front matter: updated", "git" or "file time"
+	Reviewed      *time.Time `json:"reviewed,omitempty"`
+	ReviewBy      time.Time  `json:"review_by,omitzero"` // when the document turns stale
+	Expires       *time.Time `json:"expires,omitempty"`
+	Owner         string     `json:"owner,omitempty"`
+	Audience      string     `json:"audience,omitempty"`
+
+	// AlsoAt lists the other places (path#anchor) that hold a copy of this
+	// passage; those copies are not in the bundle, so an answer can cite
+	// every location through this one.
+	AlsoAt []string `json:"also_at,omitempty"`
 }

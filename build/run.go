@@ -2,14 +2,18 @@ package build
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"io/fs"
 	"runtime"
 	"sort"
 	"sync/atomic"
+	"time"
 
 	"golang.org/x/sync/errgroup"
 
+	"github.com/kbc-project/kbc/build/dedupe"
+	"github.com/kbc-project/kbc/build/fresh"
 	"github.com/kbc-project/kbc/sources"
 )
 
@@ -23,11 +27,21 @@ type Options struct {
 	// Progress, when set, is called as documents finish, from several
 	// goroutines at once; done counts up to total.
 	Progress func(done, total int)
+	// Fresh is the freshness policy; Now the instant documents are judged
+	// at (zero means the clock: pass the SOURCE_DATE_EPOCH time for a
+	// reproducible build).
+	Fresh fresh.Policy
+	Now   time.Time
+	// GitDir, when set, is the folder (the source root on disk) whose git
+	// history dates documents that have no date in their front matter.
+	GitDir string
+	// Dedupe configures the duplicate stage.
+	Dedupe dedupe.Options
 }
 
 // DefaultOptions returns options with DefaultSettings and the default walk.
 func DefaultOptions() Options {
-	return Options{Settings: DefaultSettings()}
+	return Options{Settings: DefaultSettings(), Fresh: fresh.DefaultPolicy(), Dedupe: dedupe.DefaultOptions()}
 }
 
 // Stats counts what a build saw and made.
@@ -42,6 +56,9 @@ type Stats struct {
 	SourceBytes        int64 `json:"source_bytes"`        // bytes of the files read
 	BoilerplateDropped int   `json:"boilerplate_dropped"` // blocks dropped as site boilerplate
 	SplitPassages      int   `json:"split_passages"`      // passages cut from a block over the budget
+	Duplicates         int   `json:"duplicates"`          // copies left out, listed on their canonical passage
+	Divergent          int   `json:"divergent"`           // near copies that differ in numbers, dates or units
+	Stale              int   `json:"stale"`               // documents stale or expired
 }
 
 // Result is everything one build produced, sorted so that the same input
@@ -51,6 +68,8 @@ type Result struct {
 	Passages    []Passage           // by path, then line
 	Boilerplate []BoilerplateEntry  // most pages first
 	Problems    []*sources.Error    // every bad input, by path and line
+	Staleness   *StalenessReport
+	Duplicates  *DuplicateReport
 	Stats       Stats
 }
 
@@ -59,8 +78,9 @@ type Result struct {
 // Result.Problems and the rest is built. Run fails only when the settings
 // are invalid or ctx is cancelled.
 //
-// Per-document work (read, parse, normalise, split) runs on several
-// goroutines; only the boilerplate count looks across documents.
+// Per-document work (read, parse, normalise, date, split) runs on several
+// goroutines; the boilerplate count and the duplicate search look across
+// documents.
 func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 	s := opts.Settings
 	if err := s.Validate(); err != nil {
@@ -74,6 +94,26 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 	if workers <= 0 {
 		workers = runtime.GOMAXPROCS(0)
 	}
+
+	now := opts.Now
+	if now.IsZero() {
+		now = time.Now()
+	}
+	now = now.UTC()
+	// git history is read once for the whole tree, while the files parse.
+	type gitResult struct {
+		dates map[string]time.Time
+		err   error
+	}
+	gitc := make(chan gitResult, 1)
+	go func() {
+		if opts.GitDir == "" {
+			gitc <- gitResult{}
+			return
+		}
+		d, err := fresh.GitDates(ctx, opts.GitDir)
+		gitc <- gitResult{d, err}
+	}()
 
 	files, walkErrs := sources.Walk(fsys, opts.Walk)
 	res := &Result{Problems: walkErrs}
@@ -117,11 +157,31 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 	docs = kept
 	res.Stats.Skipped += len(walkErrs)
 
-	// Stage 2: find the site boilerplate across all documents.
+	// Stage 2: date every document.
+	gr := <-gitc
+	if gr.err != nil {
+		if !errors.Is(gr.err, fresh.ErrShallow) {
+			return nil, fmt.Errorf("reading git history: %w", gr.err)
+		}
+		res.Problems = append(res.Problems, &sources.Error{Path: ".", Msg: gr.err.Error(), Err: gr.err})
+	}
+	infos := make([]fresh.Info, len(docs))
+	var dated []DocFreshness
+	for i, d := range docs {
+		var warns []*sources.Error
+		infos[i], warns = fresh.Evaluate(d, gr.dates, now, opts.Fresh)
+		res.Problems = append(res.Problems, warns...)
+		dated = append(dated, DocFreshness{Path: d.Path, Title: d.Title, Info: infos[i]})
+	}
+	res.Staleness = NewStalenessReport(dated, now, opts.Fresh)
+	res.Stats.Stale = res.Staleness.Counts.StaleOrExpired()
+
+	// Stage 3: find the site boilerplate across all documents.
 	bp := FindBoilerplate(docs, s)
 	res.Boilerplate = bp.Entries()
 
-	// Stage 3: strip boilerplate and split each document into passages.
+	// Stage 4: strip boilerplate and split each document into passages,
+	// which inherit their document's dates and owner.
 	parts := make([][]Passage, len(docs))
 	dropped := make([]int, len(docs))
 	g, gctx = errgroup.WithContext(ctx)
@@ -134,6 +194,9 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 			var clean *sources.Document
 			clean, dropped[i] = bp.Strip(d)
 			parts[i] = Split(clean, tok, s)
+			for j := range parts[i] {
+				stamp(&parts[i][j], infos[i])
+			}
 			return nil
 		})
 	}
@@ -152,6 +215,23 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 	}
 	res.Documents = docs
 	sortPassages(res.Passages)
+
+	// Stage 5: keep one passage per group of copies.
+	byPath := make(map[string]*sources.Document, len(docs))
+	for _, d := range docs {
+		byPath[d.Path] = d
+	}
+	var err2 error
+	res.Passages, res.Duplicates, err2 = dedupePassages(res.Passages, byPath, opts.Dedupe)
+	if err2 != nil {
+		return nil, err2
+	}
+	res.Stats.Duplicates = res.Duplicates.Removed
+	res.Stats.Divergent = len(res.Duplicates.Divergent)
+	res.Stats.Tokens = 0
+	for _, p := range res.Passages {
+		res.Stats.Tokens += p.Tokens
+	}
 	sources.SortErrors(res.Problems)
 	res.Stats.Documents = len(docs)
 	res.Stats.Passages = len(res.Passages)
@@ -180,6 +260,13 @@ func readDocument(fsys fs.FS, f sources.File, maxSize int64) (*sources.Document,
 		return nil, sources.ErrNoText(f.Path)
 	}
 	return doc, nil
+}
+
+// stamp copies a document's freshness onto one of its passages.
+func stamp(p *Passage, info fresh.Info) {
+	p.Updated, p.UpdatedSource = info.Updated, info.UpdatedSource
+	p.Reviewed, p.ReviewBy, p.Expires = info.Reviewed, info.ReviewBy, info.Expires
+	p.Owner, p.Audience = info.Owner, info.Audience
 }
 
 func sortPassages(ps []Passage) {

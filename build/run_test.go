@@ -6,6 +6,7 @@ import (
 	"strings"
 	"testing"
 	"testing/fstest"
+	"time"
 )
 
 // failFS is an fstest.MapFS whose Open fails for one name, standing in for
@@ -32,8 +33,12 @@ func TestRunGoesOnAfterBadFiles(t *testing.T) {
 		"frontbad.md":  {Data: []byte("---\ntitle: [\n---\n# Kept\n\nBody kept.\n")},
 		"notes/big.md": {Data: []byte(strings.Repeat("word ", 400))},
 	}}
+	for _, f := range fsys.MapFS {
+		f.ModTime = time.Date(2026, 11, 2, 9, 0, 0, 0, time.UTC)
+	}
 	opts := DefaultOptions()
 	opts.Walk.MaxSize = 1000
+	opts.Now = time.Date(2026, 12, 1, 0, 0, 0, 0, time.UTC)
 	res, err := Run(context.Background(), fsys, opts)
 	if err != nil {
 		t.Fatal(err)

@@ -111,7 +111,7 @@ func TestSchemaRejects(t *testing.T) {
 
 // TestSchemaCoversPassage keeps the schema in step with build.Passage: its
 // properties are the struct's JSON names, and it requires exactly those
-// without omitempty.
+// without omitempty or omitzero.
 func TestSchemaCoversPassage(t *testing.T) {
 	var s struct {
 		Required   []string                   `json:"required"`
@@ -126,7 +126,7 @@ func TestSchemaCoversPassage(t *testing.T) {
 		tag := typ.Field(i).Tag.Get("json")
 		name, opts, _ := strings.Cut(tag, ",")
 		names = append(names, name)
-		if !strings.Contains(opts, "omitempty") {
+		if !strings.Contains(opts, "omitempty") && !strings.Contains(opts, "omitzero") {
 			required = append(required, name)
 		}
 	}

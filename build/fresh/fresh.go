@@ -221,22 +221,31 @@ func Evaluate(doc *sources.Document, git map[string]time.Time, now time.Time, p 
 			info.AgeDays = int(age)
 		}
 	}
-	soon := e.now.AddDate(0, 0, p.DueSoon.Days)
-	switch {
-	case info.Expires != nil && !e.now.Before(*info.Expires):
-		info.Status = Expired
-	case base.IsZero():
-		info.Status = Unknown
+	info.Status = info.StatusAt(e.now, p.DueSoon)
+	if info.Status == Unknown {
 		e.warn(0, "no date: no front matter date, git date or file time; freshness unknown")
-	case !e.now.Before(info.ReviewBy):
-		info.Status = Stale
-	case !soon.Before(info.ReviewBy), info.Expires != nil && !soon.Before(*info.Expires):
-		info.Status = DueSoon
-	default:
-		info.Status = Fresh
 	}
 	sources.SortErrors(e.warns)
 	return info, e.warns
+}
+
+// StatusAt returns the status of a page with these dates at the instant
+// now, due soon when its review-by or expiry date is at most dueSoon away.
+// A report read back later is judged again with it, so a bundle built in
+// spring tells in autumn which pages have gone stale since.
+func (info Info) StatusAt(now time.Time, dueSoon Duration) Status {
+	soon := now.AddDate(0, 0, dueSoon.Days)
+	switch {
+	case info.Expires != nil && !now.Before(*info.Expires):
+		return Expired
+	case info.ReviewBy.IsZero():
+		return Unknown
+	case !now.Before(info.ReviewBy):
+		return Stale
+	case !soon.Before(info.ReviewBy), info.Expires != nil && !soon.Before(*info.Expires):
+		return DueSoon
+	}
+	return Fresh
 }
 
 // evaluator holds one Evaluate call's state.

@@ -4,6 +4,7 @@ import (
 	"context"
 	"encoding/json"
 	"errors"
+	"flag"
 	"fmt"
 	"io"
 	"os"
@@ -11,9 +12,12 @@ import (
 	"path/filepath"
 	"strconv"
 	"strings"
+	"syscall"
 	"time"
 
 	"github.com/kbc-project/kbc/build"
+	"github.com/kbc-project/kbc/build/dedupe"
+	"github.com/kbc-project/kbc/build/fresh"
 	"github.com/kbc-project/kbc/bundle"
 	"github.com/kbc-project/kbc/sources"
 )
@@ -22,29 +26,163 @@ import (
 // its manifest.
 type manifestSettings struct {
 	build.Settings
-	Include     []string `json:"include,omitempty"`
-	Exclude     []string `json:"exclude,omitempty"`
-	MaxFileSize int64    `json:"max_file_size"`
+	Include     []string       `json:"include,omitempty"`
+	Exclude     []string       `json:"exclude,omitempty"`
+	MaxFileSize int64          `json:"max_file_size"`
+	Duplicates  dedupe.Options `json:"duplicates"`
+	Freshness   fresh.Policy   `json:"freshness"`
+}
+
+// sourceFlags are the flags of every command that compiles a source
+// folder (build, stale). They override the config file.
+type sourceFlags struct {
+	fs               *flag.FlagSet
+	include, exclude multiFlag
+	maxSize          string
+	aim, maxTok      int
+	threshold        float64
+	maxStale         string
+	failOnDivergent  bool
+}
+
+func addSourceFlags(fs *flag.FlagSet) *sourceFlags {
+	def := build.DefaultOptions()
+	sf := &sourceFlags{fs: fs}
+	fs.Var(&sf.include, "include", "only read files matching this glob (repeatable; \"**\" spans folders)")
+	fs.Var(&sf.exclude, "exclude", "skip files and folders matching this glob (repeatable)")
+	fs.StringVar(&sf.maxSize, "max-file-size", "10MB", "skip files larger than this (B, kB, MB)")
+	fs.IntVar(&sf.aim, "aim-tokens", def.Settings.AimTokens, "passage size to aim for, in tokens")
+	fs.IntVar(&sf.maxTok, "max-tokens", def.Settings.MaxTokens, "largest passage, in tokens")
+	fs.Float64Var(&sf.threshold, "dup-threshold", def.Dedupe.Threshold, "Jaccard similarity at which passages count as copies")
+	fs.StringVar(&sf.maxStale, "max-stale", "", "gate: exit 3 when more than N documents (or N% of them) are stale or expired")
+	fs.BoolVar(&sf.failOnDivergent, "fail-on-divergent", false, "gate: exit 3 when copies of a passage differ in numbers, versions, dates or units")
+	return sf
+}
+
+// gates are the quality gates of one run.
+type gates struct {
+	stale     staleLimit
+	divergent bool
+}
+
+// options builds the pipeline options for src: defaults, then the config
+// file at src's root, then the flags given on the command line.
+func (sf *sourceFlags) options(src string) (build.Options, gates, error) {
+	opts := build.DefaultOptions()
+	var g gates
+	set := map[string]bool{}
+	sf.fs.Visit(func(f *flag.Flag) { set[f.Name] = true })
+	cfg, err := build.LoadConfig(os.DirFS(src))
+	if err != nil {
+		return opts, g, err
+	}
+	if err := cfg.Apply(&opts); err != nil {
+		return opts, g, err
+	}
+	opts.Walk.Include = append(opts.Walk.Include, sf.include...)
+	opts.Walk.Exclude = append(opts.Walk.Exclude, sf.exclude...)
+	if set["max-file-size"] || opts.Walk.MaxSize == 0 {
+		n, err := build.ParseSize(sf.maxSize)
+		if err != nil {
+			return opts, g, fmt.Errorf("-max-file-size: %v", err)
+		}
+		opts.Walk.MaxSize = n
+	}
+	if set["aim-tokens"] {
+		opts.Settings.AimTokens = sf.aim
+	}
+	if set["max-tokens"] {
+		opts.Settings.MaxTokens = sf.maxTok
+	}
+	if err := opts.Settings.Validate(); err != nil {
+		return opts, g, err
+	}
+	if set["dup-threshold"] {
+		if sf.threshold <= 0 || sf.threshold > 1 {
+			return opts, g, fmt.Errorf("-dup-threshold %g is not a Jaccard similarity in (0, 1]", sf.threshold)
+		}
+		opts.Dedupe.Threshold = sf.threshold
+	}
+	limit := cfg.Gates.MaxStale
+	if set["max-stale"] {
+		limit = sf.maxStale
+	}
+	if g.stale, err = parseStaleLimit(limit); err != nil {
+		return opts, g, err
+	}
+	g.divergent = sf.failOnDivergent
+	if !set["fail-on-divergent"] && cfg.Gates.FailOnDivergent != nil {
+		g.divergent = *cfg.Gates.FailOnDivergent
+	}
+	return opts, g, nil
+}
+
+// check runs the gates over a build's reports; it prints one line per
+// failed gate and returns exitGate, or exitOK.
+func (g gates) check(st *build.StalenessReport, divergent int, stderr io.Writer) int {
+	code := exitOK
+	for _, msg := range []string{g.stale.check(st.Counts.StaleOrExpired(), st.Counts.Total), checkDivergent(g.divergent, divergent)} {
+		if msg != "" {
+			fmt.Fprintf(stderr, "kbc: %s\n", msg)
+			code = exitGate
+		}
+	}
+	return code
+}
+
+// compile checks src and runs the pipeline over it, printing each bad
+// input file as one line on stderr. It returns the exit code to stop with,
+// or -1 to go on.
+func compile(fs *flag.FlagSet, sf *sourceFlags, src string, now time.Time, stderr io.Writer) (*build.Result, build.Options, gates, int) {
+	if st, err := os.Stat(src); err != nil || !st.IsDir() {
+		if err == nil {
+			err = errors.New("not a folder")
+		}
+		return nil, build.Options{}, gates{}, badUsage(fs, stderr, "source %s: %v", src, unwrapPathErr(err))
+	}
+	opts, g, err := sf.options(src)
+	if err != nil {
+		var pe *sources.Error
+		if errors.As(err, &pe) {
+			pe.Path = filepath.Join(src, pe.Path)
+			fmt.Fprintln(stderr, pe.Error())
+			return nil, opts, g, exitUsage
+		}
+		return nil, opts, g, badUsage(fs, stderr, "%v", err)
+	}
+	opts.Now = now
+	opts.GitDir = src
+	bar := newProgress(stderr)
+	opts.Progress = bar.update
+	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
+	defer stop()
+	res, err := build.Run(ctx, os.DirFS(src), opts)
+	bar.finish()
+	if err != nil {
+		fmt.Fprintf(stderr, "kbc %s: %v\n", fs.Name(), err)
+		return nil, opts, g, exitFailure
+	}
+	for _, p := range res.Problems {
+		fmt.Fprintln(stderr, p.Error())
+	}
+	return res, opts, g, -1
 }
 
 func runBuild(args []string, stdout, stderr io.Writer) int {
 	fs := newFlags("build", "build SRC -o OUT [flags]",
 		"Build reads every Markdown, MDX and HTML file under SRC, cleans it, splits it into\n"+
-			"passages along headings and writes the bundle folder OUT: manifest.json,\n"+
-			"passages.jsonl, passages.schema.json and a search index. OUT is replaced only by\n"+
-			"a complete new bundle; a failed build leaves an earlier one untouched.",
-		"kbc build docs -o out/docs-bundle --exclude 'drafts/**'", stderr)
-	def := build.DefaultSettings()
+			"passages along headings, keeps one passage per group of copies, dates every page\n"+
+			"and writes the bundle folder OUT: manifest.json, passages.jsonl, the search index\n"+
+			"and reports (staleness, duplicates, boilerplate). OUT is replaced only by a\n"+
+			"complete new bundle; a failed build leaves an earlier one untouched. Settings\n"+
+			"come from SRC/kbc.toml when present; flags override it. A failed gate exits 3\n"+
+			"after the bundle is written.",
+		"kbc build docs -o out/docs-bundle --exclude 'drafts/**' --max-stale 10%", stderr)
 	out := fs.String("o", "", "bundle folder to write (required)")
 	fs.StringVar(out, "out", "", "same as -o")
 	strict := fs.Bool("strict", false, "treat any bad input file as fatal: exit 1, write no bundle")
-	var include, exclude multiFlag
-	fs.Var(&include, "include", "only read files matching this glob (repeatable; \"**\" spans folders)")
-	fs.Var(&exclude, "exclude", "skip files and folders matching this glob (repeatable)")
-	maxSize := fs.String("max-file-size", "10MB", "skip files larger than this (B, kB, MB)")
-	aim := fs.Int("aim-tokens", def.AimTokens, "passage size to aim for, in tokens")
-	maxTok := fs.Int("max-tokens", def.MaxTokens, "largest passage, in tokens")
 	asJSON := fs.Bool("json", false, "print the summary as JSON")
+	sf := addSourceFlags(fs)
 	pos, code := parseArgs(fs, args, stdout)
 	if code >= 0 {
 		return code
@@ -56,69 +194,45 @@ func runBuild(args []string, stdout, stderr io.Writer) int {
 		return badUsage(fs, stderr, "missing -o OUT")
 	}
 	src := pos[0]
-	if st, err := os.Stat(src); err != nil || !st.IsDir() {
-		if err == nil {
-			err = errors.New("not a folder")
-		}
-		return badUsage(fs, stderr, "source %s: %v", src, unwrapPathErr(err))
-	}
-	limit, err := parseSize(*maxSize)
-	if err != nil {
-		return badUsage(fs, stderr, "-max-file-size: %v", err)
-	}
 	builtAt, err := buildTime(os.Getenv("SOURCE_DATE_EPOCH"), time.Now)
 	if err != nil {
-		return badUsage(fs, stderr, "%v", err)
-	}
-
-	opts := build.DefaultOptions()
-	opts.Settings.AimTokens, opts.Settings.MaxTokens = *aim, *maxTok
-	opts.Walk = sources.WalkOptions{Include: include, Exclude: exclude, MaxSize: limit}
-	if err := opts.Settings.Validate(); err != nil {
 		return badUsage(fs, stderr, "%v", err)
 	}
 	// Never read our own output when OUT lies inside SRC.
 	if rel, err := filepath.Rel(src, *out); err == nil && rel != "." && !strings.HasPrefix(rel, "..") {
 		rel = filepath.ToSlash(rel)
-		opts.Walk.Exclude = append(opts.Walk.Exclude, rel, "."+filepath.Base(rel)+".tmp-*")
+		sf.exclude = append(sf.exclude, rel, "."+filepath.Base(rel)+".tmp-*")
 	}
-	bar := newProgress(stderr)
-	opts.Progress = bar.update
-
-	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt)
-	defer stop()
 	start := time.Now()
-	res, err := build.Run(ctx, os.DirFS(src), opts)
-	bar.finish()
-	if err != nil {
-		fmt.Fprintf(stderr, "kbc build: %v\n", err)
-		return exitFailure
-	}
-	for _, p := range res.Problems {
-		fmt.Fprintln(stderr, p.Error())
+	res, opts, g, code := compile(fs, sf, src, builtAt, stderr)
+	if code >= 0 {
+		return code
 	}
 	if *strict && len(res.Problems) > 0 {
 		fmt.Fprintf(stderr, "kbc build: %v\n", res.Strict())
 		return exitFailure
 	}
-	commit, dirty := build.SourceCommit(src)
-	counts := map[string]int{
-		"documents":           res.Stats.Documents,
-		"empty_documents":     res.Stats.Empty,
-		"passages":            res.Stats.Passages,
-		"tokens":              res.Stats.Tokens,
-		"skipped":             res.Stats.Skipped,
-		"warnings":            res.Stats.Warnings,
-		"boilerplate_dropped": res.Stats.BoilerplateDropped,
+	files, err := reportFiles(res)
+	if err != nil {
+		fmt.Fprintf(stderr, "kbc build: %v\n", err)
+		return exitFailure
 	}
+	commit, dirty := build.SourceCommit(src)
+	st := res.Stats
 	in := &bundle.Input{
-		Passages:     res.Passages,
-		Settings:     manifestSettings{Settings: opts.Settings, Include: include, Exclude: exclude, MaxFileSize: limit},
+		Passages: res.Passages,
+		Settings: manifestSettings{Settings: opts.Settings, Include: opts.Walk.Include, Exclude: opts.Walk.Exclude,
+			MaxFileSize: opts.Walk.MaxSize, Duplicates: opts.Dedupe, Freshness: opts.Fresh},
 		Tool:         "kbc " + version,
 		SourceCommit: commit,
 		SourceDirty:  dirty,
 		BuiltAt:      builtAt,
-		Counts:       counts,
+		Counts: map[string]int{
+			"documents": st.Documents, "empty_documents": st.Empty, "skipped": st.Skipped,
+			"warnings": st.Warnings, "boilerplate_dropped": st.BoilerplateDropped,
+			"duplicates_removed": st.Duplicates, "divergent_copies": st.Divergent, "stale_documents": st.Stale,
+		},
+		Files: files,
 	}
 	m, err := bundle.Write(*out, in)
 	if err != nil {
@@ -126,25 +240,50 @@ func runBuild(args []string, stdout, stderr io.Writer) int {
 		return exitFailure
 	}
 	sum := summary{Source: src, Out: *out, BundleID: m.BundleID, Stats: res.Stats,
-		BoilerplateTexts: len(res.Boilerplate), Seconds: time.Since(start).Seconds()}
+		BoilerplateTexts: len(res.Boilerplate), Staleness: res.Staleness.Counts,
+		Bands: res.Duplicates.Bands, Rows: res.Duplicates.Rows, Seconds: time.Since(start).Seconds()}
 	if *asJSON {
 		enc := json.NewEncoder(stdout)
 		enc.SetIndent("", "  ")
 		enc.Encode(sum)
-		return exitOK
+	} else {
+		sum.print(stdout)
 	}
-	sum.print(stdout)
-	return exitOK
+	return g.check(res.Staleness, res.Stats.Divergent, stderr)
+}
+
+// reportFiles renders a build's reports as bundle files.
+func reportFiles(res *build.Result) (map[string][]byte, error) {
+	files := map[string][]byte{
+		bundle.StalenessMarkdown: bundle.RenderStaleness(res.Staleness),
+		bundle.DuplicatesMD:      bundle.RenderDuplicates(res.Duplicates),
+		bundle.BoilerplateMD:     bundle.RenderBoilerplate(res.Boilerplate),
+	}
+	boiler := res.Boilerplate
+	if boiler == nil {
+		boiler = []build.BoilerplateEntry{}
+	}
+	for name, v := range map[string]any{bundle.StalenessJSON: res.Staleness, bundle.DuplicatesJSON: res.Duplicates, bundle.BoilerplateJSON: boiler} {
+		data, err := bundle.MarshalReport(v)
+		if err != nil {
+			return nil, fmt.Errorf("%s: %v", name, err)
+		}
+		files[name] = data
+	}
+	return files, nil
 }
 
 // summary is what build prints when it is done.
 type summary struct {
-	Source           string      `json:"source"`
-	Out              string      `json:"out"`
-	BundleID         string      `json:"bundle_id"`
-	Stats            build.Stats `json:"stats"`
-	BoilerplateTexts int         `json:"boilerplate_texts"`
-	Seconds          float64     `json:"seconds"`
+	Source           string             `json:"source"`
+	Out              string             `json:"out"`
+	BundleID         string             `json:"bundle_id"`
+	Stats            build.Stats        `json:"stats"`
+	BoilerplateTexts int                `json:"boilerplate_texts"`
+	Staleness        build.StatusCounts `json:"staleness"`
+	Bands            int                `json:"lsh_bands"`
+	Rows             int                `json:"lsh_rows"`
+	Seconds          float64            `json:"seconds"`
 }
 
 func (s summary) print(w io.Writer) {
@@ -154,13 +293,18 @@ func (s summary) print(w io.Writer) {
 	if st.Empty > 0 {
 		fmt.Fprintf(w, "; %d with front matter only", st.Empty)
 	}
-	fmt.Fprintln(w)
-	fmt.Fprintf(w, "  passages     %d", st.Passages)
+	fmt.Fprintf(w, "\n  passages     %d", st.Passages)
 	if st.SplitPassages > 0 {
 		fmt.Fprintf(w, " (%d cut from blocks over the budget)", st.SplitPassages)
 	}
 	fmt.Fprintf(w, "\n  tokens       %d\n", st.Tokens)
-	fmt.Fprintf(w, "  boilerplate  %d blocks dropped (%d distinct texts)\n", st.BoilerplateDropped, s.BoilerplateTexts)
+	fmt.Fprintf(w, "  duplicates   %d copies folded into their canonical passage (LSH %d bands x %d rows)", st.Duplicates, s.Bands, s.Rows)
+	if st.Divergent > 0 {
+		fmt.Fprintf(w, "; %d divergent", st.Divergent)
+	}
+	fmt.Fprintf(w, "\n  boilerplate  %d blocks dropped (%d distinct texts)\n", st.BoilerplateDropped, s.BoilerplateTexts)
+	c := s.Staleness
+	fmt.Fprintf(w, "  freshness    %d fresh, %d due soon, %d stale, %d expired\n", c.Fresh, c.DueSoon, c.Stale, c.Expired)
 	fmt.Fprintf(w, "  warnings     %d\n", st.Warnings)
 	fmt.Fprintf(w, "  bundle id    %s\n", s.BundleID)
 	fmt.Fprintf(w, "  time         %.2fs\n", s.Seconds)
@@ -179,26 +323,6 @@ func buildTime(epoch string, now func() time.Time) (time.Time, error) {
 		return time.Time{}, fmt.Errorf("SOURCE_DATE_EPOCH=%q is not a whole number of seconds since 1970-01-01", epoch)
 	}
 	return time.Unix(n, 0).UTC(), nil
-}
-
-// parseSize reads sizes like "10MB", "512kB", "2048" (bytes).
-func parseSize(s string) (int64, error) {
-	t := strings.TrimSpace(strings.ToUpper(s))
-	mult := int64(1)
-	for _, u := range []struct {
-		suffix string
-		mult   int64
-	}{{"GB", 1 << 30}, {"MB", 1 << 20}, {"KB", 1 << 10}, {"B", 1}} {
-		if strings.HasSuffix(t, u.suffix) {
-			t, mult = strings.TrimSpace(strings.TrimSuffix(t, u.suffix)), u.mult
-			break
-		}
-	}
-	n, err := strconv.ParseFloat(t, 64)
-	if err != nil || n <= 0 {
-		return 0, fmt.Errorf("bad size %q (want e.g. 10MB)", s)
-	}
-	return int64(n * float64(mult)), nil
 }
 
 func sizeString(n int64) string {

@@ -10,6 +10,7 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+	"time"
 
 	"github.com/kbc-project/kbc/build"
 	"github.com/kbc-project/kbc/bundle"
@@ -70,17 +71,28 @@ func stableManifest(t *testing.T, dir string) []byte {
 	return append(out, '\n')
 }
 
-// TestExampleGolden pins the bundle built from the example knowledge base.
+// TestExampleGolden pins the bundle built from the example knowledge base:
+// its passages, its manifest and its reports.
 // Rewrite with: go test ./cmd/kbc -run TestExampleGolden -update-golden
+//
+// The handbook is copied out of this repository first, with every file
+// time set to one instant: pages without a date in their front matter are
+// then dated by that file time, not by this repository's git history,
+// which changes with every commit and may be shallow in CI.
 func TestExampleGolden(t *testing.T) {
+	src := copyTree(t, "../../examples/handbook", time.Date(2026, 11, 20, 9, 0, 0, 0, time.UTC))
 	out := filepath.Join(t.TempDir(), "b")
-	t.Setenv("SOURCE_DATE_EPOCH", "1767225600")
-	mustBuild(t, "../../examples/handbook", out)
-	for name, got := range map[string][]byte{
+	t.Setenv("SOURCE_DATE_EPOCH", "1796083200") // 2026-12-01T00:00:00Z
+	mustBuild(t, src, out)
+	files := map[string][]byte{
 		"passages.jsonl": mustRead(t, filepath.Join(out, "passages.jsonl")),
 		"manifest.json":  stableManifest(t, out),
-	} {
-		golden := filepath.Join("../../testdata/golden/handbook", name)
+	}
+	for _, r := range []string{bundle.StalenessJSON, bundle.StalenessMarkdown, bundle.DuplicatesJSON, bundle.DuplicatesMD, bundle.BoilerplateJSON, bundle.BoilerplateMD} {
+		files[r] = mustRead(t, filepath.Join(out, filepath.FromSlash(r)))
+	}
+	for name, got := range files {
+		golden := filepath.Join("../../testdata/golden/handbook", filepath.FromSlash(name))
 		if *updateGolden {
 			if err := os.MkdirAll(filepath.Dir(golden), 0o755); err != nil {
 				t.Fatal(err)
@@ -176,6 +188,35 @@ func headingLine(t *testing.T, file, anchor string) int {
 	}
 	t.Fatalf("%s has no heading with anchor %q", file, anchor)
 	return 0
+}
+
+// copyTree copies the folder src into a temporary folder, setting every
+// file's modification time to mtime.
+func copyTree(t *testing.T, src string, mtime time.Time) string {
+	t.Helper()
+	dst := t.TempDir()
+	err := filepath.WalkDir(src, func(p string, d os.DirEntry, err error) error {
+		if err != nil {
+			return err
+		}
+		rel, _ := filepath.Rel(src, p)
+		target := filepath.Join(dst, rel)
+		if d.IsDir() {
+			return os.MkdirAll(target, 0o755)
+		}
+		data, err := os.ReadFile(p)
+		if err != nil {
+			return err
+		}
+		if err := os.WriteFile(target, data, 0o644); err != nil {
+			return err
+		}
+		return os.Chtimes(target, mtime, mtime)
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	return dst
 }
 
 func mustRead(t *testing.T, p string) []byte {

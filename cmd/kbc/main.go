@@ -5,11 +5,12 @@
 //
 //	kbc build SRC -o OUT [--strict] [--include GLOB] [--exclude GLOB]
 //	kbc query OUT "question" [-k 10] [--json]
+//	kbc stale SRC|OUT [--json] [--max-stale N|N%] [--fail-on-divergent]
 //	kbc verify OUT [--json]
 //	kbc version
 //
 // Run "kbc COMMAND --help" for the flags of one command. Exit codes: 0 ok,
-// 1 failure, 2 bad usage.
+// 1 failure, 2 bad usage, 3 a quality gate failed.
 package main
 
 import (
@@ -43,6 +44,7 @@ func commands() []command {
 	return []command{
 		{"build", "compile a docs folder into a bundle", runBuild},
 		{"query", "search a bundle", runQuery},
+		{"stale", "report stale pages of a docs folder or bundle", runStale},
 		{"verify", "re-hash a bundle's files against its manifest", runVerify},
 		{"version", "print the version", func(_ []string, stdout, _ io.Writer) int {
 			fmt.Fprintf(stdout, "kbc %s\n", version)

@@ -134,16 +134,3 @@ func TestBuildTime(t *testing.T) {
 		}
 	}
 }
-
-func TestParseSize(t *testing.T) {
-	for in, want := range map[string]int64{"10MB": 10 << 20, "512kB": 512 << 10, "2048": 2048, "1.5 MB": 3 << 19} {
-		if got, err := parseSize(in); err != nil || got != want {
-			t.Errorf("parseSize(%q) = %d, %v; want %d", in, got, err, want)
-		}
-	}
-	for _, in := range []string{"", "ten", "-1MB", "0"} {
-		if _, err := parseSize(in); err == nil {
-			t.Errorf("parseSize(%q) accepted", in)
-		}
-	}
-}

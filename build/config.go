@@ -1,0 +1,260 @@
+package build
+
+import (
+	"bytes"
+	"errors"
+	"fmt"
+	"io/fs"
+	"strconv"
+	"strings"
+
+	"github.com/BurntSushi/toml"
+
+	"github.com/kbc-project/kbc/build/fresh"
+	"github.com/kbc-project/kbc/sources"
+)
+
+// ConfigFile is the name of the optional config file at the source root.
+const ConfigFile = "kbc.toml"
+
+// Config is the optional config file. Every field is optional: a missing
+// field keeps its default, and command-line flags override the file.
+type Config struct {
+	Build struct {
+		AimTokens           *int     `toml:"aim_tokens"`
+		MaxTokens           *int     `toml:"max_tokens"`
+		MinTokens           *int     `toml:"min_tokens"`
+		Include             []string `toml:"include"`
+		Exclude             []string `toml:"exclude"`
+		MaxFileSize         string   `toml:"max_file_size"` // e.g. "10MB"
+		BoilerplateShare    *float64 `toml:"boilerplate_share"`
+		BoilerplateMinPages *int     `toml:"boilerplate_min_pages"`
+	} `toml:"build"`
+	Duplicates struct {
+		Threshold   *float64 `toml:"threshold"`
+		Hashes      *int     `toml:"hashes"`
+		Shingle     *int     `toml:"shingle"`
+		MinShingles *int     `toml:"min_shingles"`
+	} `toml:"duplicates"`
+	Freshness struct {
+		DateFields    []string `toml:"date_fields"`
+		DefaultMaxAge string   `toml:"default_max_age"` // e.g. "365d"
+		DueSoon       string   `toml:"due_soon"`        // e.g. "30d"
+		MaxAge        []struct {
+			Pattern string `toml:"pattern"`
+			MaxAge  string `toml:"max_age"`
+		} `toml:"max_age"`
+	} `toml:"freshness"`
+	Gates struct {
+		MaxStale        string `toml:"max_stale"` // "N" documents or "N%"
+		FailOnDivergent *bool  `toml:"fail_on_divergent"`
+	} `toml:"gates"`
+
+	// lines maps a dotted key ("freshness.due_soon") to its line, for
+	// errors about values that parse as TOML but make no sense.
+	lines map[string]int
+}
+
+// LoadConfig reads ConfigFile from the root of fsys. A missing file gives
+// an empty config and no error. A syntax error, an unknown key or a value
+// of the wrong type is a *sources.Error naming the file and line.
+func LoadConfig(fsys fs.FS) (*Config, error) {
+	data, err := fs.ReadFile(fsys, ConfigFile)
+	if errors.Is(err, fs.ErrNotExist) {
+		return &Config{}, nil
+	}
+	if err != nil {
+		return nil, &sources.Error{Path: ConfigFile, Msg: fmt.Sprintf("cannot read: %v", err), Err: err}
+	}
+	return ParseConfig(data)
+}
+
+// ParseConfig parses the text of a config file.
+func ParseConfig(data []byte) (*Config, error) {
+	var c Config
+	md, err := toml.Decode(string(data), &c)
+	if err != nil {
+		var pe toml.ParseError
+		var ppe *toml.ParseError
+		switch {
+		case errors.As(err, &pe):
+		case errors.As(err, &ppe):
+			pe = *ppe
+		default:
+			// Type errors come as plain text: "toml: line 3 (last key
+			// "build.aim_tokens"): incompatible types: ...".
+			var line int
+			var key, msg string
+			if n, _ := fmt.Sscanf(err.Error(), "toml: line %d (last key %q): ", &line, &key); n == 2 {
+				_, msg, _ = strings.Cut(err.Error(), "): ")
+				return nil, &sources.Error{Path: ConfigFile, Line: line, Msg: key + ": " + msg, Err: err}
+			}
+			return nil, &sources.Error{Path: ConfigFile, Msg: strings.TrimPrefix(err.Error(), "toml: "), Err: err}
+		}
+		msg := pe.Message
+		if pe.LastKey != "" && !strings.Contains(msg, pe.LastKey) {
+			msg = pe.LastKey + ": " + msg
+		}
+		return nil, &sources.Error{Path: ConfigFile, Line: pe.Position.Line, Msg: msg, Err: err}
+	}
+	c.lines = keyLines(data)
+	if und := md.Undecoded(); len(und) > 0 {
+		key := und[0].String()
+		return nil, &sources.Error{Path: ConfigFile, Line: c.Line(key), Msg: fmt.Sprintf("unknown setting %q", key)}
+	}
+	return &c, nil
+}
+
+// Line returns the line where the dotted key is set, or 0.
+func (c *Config) Line(key string) int {
+	return c.lines[key]
+}
+
+// Errorf returns a positioned error about the value of a dotted key.
+func (c *Config) Errorf(key, format string, args ...any) *sources.Error {
+	return &sources.Error{Path: ConfigFile, Line: c.Line(key), Msg: key + ": " + fmt.Sprintf(format, args...)}
+}
+
+// keyLines finds the line of each "key = value" in a TOML text, keyed by
+// its dotted path under the latest [table] or [[array]] header. It is a
+// line scan, enough for the flat file kbc reads; values spanning lines are
+// not followed.
+func keyLines(data []byte) map[string]int {
+	lines := map[string]int{}
+	arrays := map[string]int{} // [[table]] headers seen so far, by name
+	table := ""
+	for i, raw := range bytes.Split(data, []byte("\n")) {
+		l := strings.TrimSpace(string(raw))
+		switch {
+		case l == "" || l[0] == '#':
+			continue
+		case strings.HasPrefix(l, "[["):
+			table = strings.TrimSpace(strings.Trim(l, "[] "))
+			if _, ok := lines[table]; !ok {
+				lines[table] = i + 1
+			}
+			lines[fmt.Sprintf("%s#%d", table, arrays[table])] = i + 1
+			arrays[table]++
+			continue
+		case l[0] == '[':
+			table = strings.TrimSpace(strings.Trim(l, "[] "))
+			lines[table] = i + 1
+			continue
+		}
+		k, _, ok := strings.Cut(l, "=")
+		if !ok {
+			continue
+		}
+		k = strings.Trim(strings.TrimSpace(k), `"'`)
+		if table != "" {
+			k = table + "." + k
+		}
+		if _, seen := lines[k]; !seen {
+			lines[k] = i + 1
+		}
+	}
+	return lines
+}
+
+// Apply sets the options the config file names, leaving the others as
+// they are. Values that make no sense (a duration that does not parse, a
+// threshold outside 0..1) are errors naming the line in the file.
+func (c *Config) Apply(o *Options) error {
+	b := c.Build
+	setInt(&o.Settings.AimTokens, b.AimTokens)
+	setInt(&o.Settings.MaxTokens, b.MaxTokens)
+	setInt(&o.Settings.MinTokens, b.MinTokens)
+	setInt(&o.Settings.BoilerplateMinPages, b.BoilerplateMinPages)
+	if b.BoilerplateShare != nil {
+		o.Settings.BoilerplateShare = *b.BoilerplateShare
+	}
+	o.Walk.Include = append(o.Walk.Include, b.Include...)
+	o.Walk.Exclude = append(o.Walk.Exclude, b.Exclude...)
+	if b.MaxFileSize != "" {
+		n, err := ParseSize(b.MaxFileSize)
+		if err != nil {
+			return c.Errorf("build.max_file_size", "%v", err)
+		}
+		o.Walk.MaxSize = n
+	}
+	if err := o.Settings.Validate(); err != nil {
+		return &sources.Error{Path: ConfigFile, Line: c.Line("build"), Msg: err.Error()}
+	}
+
+	d := c.Duplicates
+	if d.Threshold != nil {
+		if *d.Threshold <= 0 || *d.Threshold > 1 {
+			return c.Errorf("duplicates.threshold", "%g is not a Jaccard similarity in (0, 1]", *d.Threshold)
+		}
+		o.Dedupe.Threshold = *d.Threshold
+	}
+	for key, p := range map[string]*int{"duplicates.hashes": d.Hashes, "duplicates.shingle": d.Shingle, "duplicates.min_shingles": d.MinShingles} {
+		if p != nil && *p < 1 {
+			return c.Errorf(key, "must be at least 1")
+		}
+	}
+	setInt(&o.Dedupe.Hashes, d.Hashes)
+	setInt(&o.Dedupe.Shingle, d.Shingle)
+	setInt(&o.Dedupe.MinShingles, d.MinShingles)
+
+	f := c.Freshness
+	if len(f.DateFields) > 0 {
+		o.Fresh.DateFields = f.DateFields
+	}
+	for key, dst := range map[string]*fresh.Duration{"freshness.default_max_age": &o.Fresh.DefaultMaxAge, "freshness.due_soon": &o.Fresh.DueSoon} {
+		v := f.DefaultMaxAge
+		if key == "freshness.due_soon" {
+			v = f.DueSoon
+		}
+		if v == "" {
+			continue
+		}
+		dur, err := fresh.ParseDuration(v)
+		if err != nil {
+			return c.Errorf(key, "%v", err)
+		}
+		*dst = dur
+	}
+	for i, r := range f.MaxAge {
+		dur, err := fresh.ParseDuration(r.MaxAge)
+		if err != nil {
+			return &sources.Error{Path: ConfigFile, Line: c.ruleLine(i), Msg: fmt.Sprintf("freshness.max_age rule %d: %v", i+1, err)}
+		}
+		o.Fresh.MaxAge = append(o.Fresh.MaxAge, fresh.AgeRule{Pattern: r.Pattern, MaxAge: dur})
+	}
+	if err := o.Fresh.Validate(); err != nil {
+		return &sources.Error{Path: ConfigFile, Line: c.Line("freshness"), Msg: "freshness: " + err.Error()}
+	}
+	return nil
+}
+
+// ruleLine returns the line of the i-th [[freshness.max_age]] header.
+func (c *Config) ruleLine(i int) int {
+	return c.lines[fmt.Sprintf("freshness.max_age#%d", i)]
+}
+
+func setInt(dst *int, v *int) {
+	if v != nil {
+		*dst = *v
+	}
+}
+
+// ParseSize reads sizes like "10MB", "512kB" or "2048" (bytes).
+func ParseSize(s string) (int64, error) {
+	t := strings.TrimSpace(strings.ToUpper(s))
+	mult := int64(1)
+	for _, u := range []struct {
+		suffix string
+		mult   int64
+	}{{"GB", 1 << 30}, {"MB", 1 << 20}, {"KB", 1 << 10}, {"B", 1}} {
+		if strings.HasSuffix(t, u.suffix) {
+			t, mult = strings.TrimSpace(strings.TrimSuffix(t, u.suffix)), u.mult
+			break
+		}
+	}
+	n, err := strconv.ParseFloat(t, 64)
+	if err != nil || n <= 0 {
+		return 0, fmt.Errorf("bad size %q (want e.g. 10MB)", s)
+	}
+	return int64(n * float64(mult)), nil
+}

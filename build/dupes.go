@@ -1,0 +1,232 @@
+package build
+
+import (
+	"sort"
+	"strings"
+
+	"github.com/kbc-project/kbc/build/dedupe"
+	"github.com/kbc-project/kbc/sources"
+)
+
+// Location names one passage in the reports.
+type Location struct {
+	ID      string `json:"id"`
+	Path    string `json:"path"`
+	Anchor  string `json:"anchor,omitempty"`
+	Line    int    `json:"line"`
+	EndLine int    `json:"end_line"`
+}
+
+// Ref returns "path#anchor", or the path alone when there is no anchor.
+func (l Location) Ref() string {
+	if l.Anchor == "" {
+		return l.Path
+	}
+	return l.Path + "#" + l.Anchor
+}
+
+func locate(p *Passage) Location {
+	return Location{ID: p.ID, Path: p.Path, Anchor: p.Anchor, Line: p.Line, EndLine: p.EndLine}
+}
+
+// Copy is a passage left out of the bundle because it copies a canonical
+// one, with its Jaccard similarity to it.
+type Copy struct {
+	Location
+	Jaccard float64 `json:"jaccard"`
+}
+
+// DuplicateCluster is one group of copies and the passage kept for it.
+type DuplicateCluster struct {
+	Canonical Location `json:"canonical"`
+	// Reason says which rule chose the canonical passage: "marked
+	// canonical", "freshest", "shortest path" or "path order".
+	Reason string `json:"reason"`
+	Exact  bool   `json:"exact"` // every copy has the same normalised text
+	Copies []Copy `json:"copies"`
+}
+
+// DivergentCopy is a near-duplicate pair whose differing words carry facts
+// (numbers, versions, dates, units): the pairs most likely to give an
+// assistant two answers to one question.
+type DivergentCopy struct {
+	Canonical   Location            `json:"canonical"`
+	Copy        Location            `json:"copy"`
+	Jaccard     float64             `json:"jaccard"`
+	Differences []dedupe.Difference `json:"differences"`
+}
+
+// DuplicateReport lists what the duplicate stage found, divergent copies
+// first.
+type DuplicateReport struct {
+	Threshold        float64            `json:"threshold"`
+	Hashes           int                `json:"hashes"`
+	Shingle          int                `json:"shingle"`
+	Bands            int                `json:"bands"`
+	Rows             int                `json:"rows"`
+	CatchAtThreshold float64            `json:"catch_at_threshold"` // 1-(1-s^r)^b at s = Threshold
+	CatchAtHalf      float64            `json:"catch_at_0_5"`       // the same at s = 0.5
+	Passages         int                `json:"passages"`           // passages compared
+	Candidates       int                `json:"candidates"`         // candidate pairs verified
+	Removed          int                `json:"removed"`            // copies left out of the bundle
+	Divergent        []DivergentCopy    `json:"divergent"`
+	Clusters         []DuplicateCluster `json:"clusters"`
+}
+
+// maskFigures replaces every word holding a digit with "0" before
+// passages are compared. Copies that differ only in their figures (every
+// 30 days here, every 90 days there) then count as copies, as they are,
+// and the divergent-copy check reports them; without the mask each
+// changed figure breaks five shingles and such pairs fall below the
+// threshold in short passages. Reported similarities are on the real text.
+func maskFigures(s string) string {
+	if strings.IndexAny(s, "0123456789") < 0 {
+		return s
+	}
+	var b strings.Builder
+	b.Grow(len(s))
+	for i := 0; i < len(s); {
+		j := i
+		for j < len(s) && !asciiSpace(s[j]) {
+			j++
+		}
+		word := s[i:j]
+		if strings.IndexAny(word, "0123456789") >= 0 {
+			b.WriteByte('0')
+		} else {
+			b.WriteString(word)
+		}
+		for j < len(s) && asciiSpace(s[j]) {
+			b.WriteByte(s[j])
+			j++
+		}
+		i = j
+	}
+	return b.String()
+}
+
+func asciiSpace(c byte) bool { return c == ' ' || c == '\n' || c == '\t' || c == '\r' }
+
+// dedupePassages finds copies among ps (sorted by path and line), keeps
+// one canonical passage per cluster with the others' locations in its
+// AlsoAt, and returns the kept passages and the report. docs gives each
+// path's document, for the canonical mark in its front matter.
+func dedupePassages(ps []Passage, docs map[string]*sources.Document, opts dedupe.Options) ([]Passage, *DuplicateReport, error) {
+	masked := make([]string, len(ps))
+	for i := range ps {
+		masked[i] = maskFigures(ps[i].Text)
+	}
+	res, err := dedupe.Find(len(ps), func(i int) string { return masked[i] }, opts)
+	if err != nil {
+		return nil, nil, err
+	}
+	def := dedupe.DefaultOptions()
+	if opts.Threshold == 0 {
+		opts.Threshold = def.Threshold
+	}
+	if opts.Hashes == 0 {
+		opts.Hashes = def.Hashes
+	}
+	if opts.Shingle == 0 {
+		opts.Shingle = def.Shingle
+	}
+	rep := &DuplicateReport{
+		Threshold: opts.Threshold, Hashes: opts.Hashes, Shingle: opts.Shingle,
+		Bands: res.Bands, Rows: res.Rows,
+		CatchAtThreshold: dedupe.CatchProbability(opts.Threshold, res.Bands, res.Rows),
+		CatchAtHalf:      dedupe.CatchProbability(0.5, res.Bands, res.Rows),
+		Passages:         len(ps), Candidates: res.Candidates,
+		Divergent: []DivergentCopy{}, Clusters: []DuplicateCluster{},
+	}
+	drop := make([]bool, len(ps))
+	for _, c := range res.Clusters {
+		keep, reason := canonical(c.Members, ps, docs)
+		dc := DuplicateCluster{Canonical: locate(&ps[keep]), Reason: reason, Exact: true}
+		var also []string
+		for _, m := range c.Members {
+			if m == keep {
+				continue
+			}
+			drop[m] = true
+			j := 1.0
+			// A cluster that is exact under the figure mask may still
+			// differ in its figures: compare the real texts.
+			if ps[keep].Text != ps[m].Text {
+				dc.Exact = false
+				j = dedupe.Similarity(ps[keep].Text, ps[m].Text, opts.Shingle)
+				if diffs, ok := dedupe.Divergent(ps[keep].Text, ps[m].Text); ok {
+					rep.Divergent = append(rep.Divergent, DivergentCopy{
+						Canonical: locate(&ps[keep]), Copy: locate(&ps[m]), Jaccard: j, Differences: diffs,
+					})
+				}
+			}
+			dc.Copies = append(dc.Copies, Copy{Location: locate(&ps[m]), Jaccard: j})
+			also = append(also, locate(&ps[m]).Ref())
+		}
+		sort.Strings(also)
+		ps[keep].AlsoAt = compactStrings(also)
+		rep.Clusters = append(rep.Clusters, dc)
+		rep.Removed += len(c.Members) - 1
+	}
+	kept := make([]Passage, 0, len(ps)-rep.Removed)
+	for i := range ps {
+		if !drop[i] {
+			kept = append(kept, ps[i])
+		}
+	}
+	return kept, rep, nil
+}
+
+// canonical picks the passage to keep among members, by these rules in
+// order: a page marked `canonical: true` in its front matter, the freshest
+// page, the shortest path, path order (then line). It returns the index
+// and the first rule that tells the winner from the runner-up.
+func canonical(members []int, ps []Passage, docs map[string]*sources.Document) (int, string) {
+	marked := func(i int) int {
+		if d := docs[ps[i].Path]; d != nil {
+			if v, _ := d.Front["canonical"].(bool); v {
+				return 1
+			}
+		}
+		return 0
+	}
+	rules := []struct {
+		name string
+		cmp  func(a, b int) int // < 0 when a is the better choice
+	}{
+		{"marked canonical", func(a, b int) int { return marked(b) - marked(a) }},
+		{"freshest", func(a, b int) int { return ps[b].Updated.Compare(ps[a].Updated) }},
+		{"shortest path", func(a, b int) int { return len(ps[a].Path) - len(ps[b].Path) }},
+		{"path order", func(a, b int) int {
+			if c := strings.Compare(ps[a].Path, ps[b].Path); c != 0 {
+				return c
+			}
+			return ps[a].Line - ps[b].Line
+		}},
+	}
+	order := append([]int(nil), members...)
+	sort.SliceStable(order, func(i, j int) bool {
+		for _, r := range rules {
+			if c := r.cmp(order[i], order[j]); c != 0 {
+				return c < 0
+			}
+		}
+		return false
+	})
+	for _, r := range rules {
+		if r.cmp(order[0], order[1]) != 0 {
+			return order[0], r.name
+		}
+	}
+	return order[0], "path order"
+}
+
+func compactStrings(s []string) []string {
+	out := s[:0]
+	for i, v := range s {
+		if i == 0 || v != s[i-1] {
+			out = append(out, v)
+		}
+	}
+	return out
+}

@@ -1,0 +1,203 @@
+package build
+
+import (
+	"sort"
+	"time"
+
+	"github.com/kbc-project/kbc/build/fresh"
+)
+
+// StalenessCaution is printed at the top of every staleness report.
+const StalenessCaution = "This report flags age, not truth: a fresh page can be wrong and an old one right. " +
+	"Owners must review the pages flagged here; safety-relevant procedures follow the owning team's review rules, not this report."
+
+// DocFreshness is one document's line in the staleness report.
+type DocFreshness struct {
+	Path  string `json:"path"`
+	Title string `json:"title"`
+	fresh.Info
+	// OverdueDays counts whole days since the review-by (or expiry) date
+	// for stale and expired documents; DueInDays counts days until it for
+	// the others.
+	OverdueDays int `json:"overdue_days,omitempty"`
+	DueInDays   int `json:"due_in_days,omitempty"`
+}
+
+// StatusCounts counts documents per freshness status.
+type StatusCounts struct {
+	Fresh   int `json:"fresh"`
+	DueSoon int `json:"due_soon"`
+	Stale   int `json:"stale"`
+	Expired int `json:"expired"`
+	Unknown int `json:"unknown"`
+	Total   int `json:"total"`
+}
+
+// StaleOrExpired is the count the max-stale gate reads.
+func (c StatusCounts) StaleOrExpired() int { return c.Stale + c.Expired }
+
+func (c *StatusCounts) add(s fresh.Status) {
+	c.Total++
+	switch s {
+	case fresh.Fresh:
+		c.Fresh++
+	case fresh.DueSoon:
+		c.DueSoon++
+	case fresh.Stale:
+		c.Stale++
+	case fresh.Expired:
+		c.Expired++
+	default:
+		c.Unknown++
+	}
+}
+
+// AgeBucket is one bar of the age histogram: documents whose age in days
+// is in [MinDays, MaxDays); MaxDays 0 means no upper bound.
+type AgeBucket struct {
+	Label     string `json:"label"`
+	MinDays   int    `json:"min_days"`
+	MaxDays   int    `json:"max_days,omitempty"`
+	Documents int    `json:"documents"`
+}
+
+// OwnerGroup is the documents of one owner, worst first.
+type OwnerGroup struct {
+	Owner     string         `json:"owner"` // "" for documents without one
+	Counts    StatusCounts   `json:"counts"`
+	Documents []DocFreshness `json:"documents"`
+}
+
+// StalenessReport says how fresh every document is at one instant.
+type StalenessReport struct {
+	GeneratedAt time.Time      `json:"generated_at"`
+	Caution     string         `json:"caution"`
+	Policy      fresh.Policy   `json:"policy"`
+	Counts      StatusCounts   `json:"counts"`
+	Histogram   []AgeBucket    `json:"age_histogram"`
+	Owners      []OwnerGroup   `json:"owners"`
+	Documents   []DocFreshness `json:"documents"` // worst first
+}
+
+// ageBuckets are the histogram's bars; the bounds follow calendar sense
+// (a month, a quarter, half a year, a year, two, three), no source.
+var ageBuckets = []AgeBucket{
+	{Label: "under 30 days", MaxDays: 30},
+	{Label: "30-89 days", MinDays: 30, MaxDays: 90},
+	{Label: "90-179 days", MinDays: 90, MaxDays: 180},
+	{Label: "180-364 days", MinDays: 180, MaxDays: 365},
+	{Label: "1-2 years", MinDays: 365, MaxDays: 730},
+	{Label: "2-3 years", MinDays: 730, MaxDays: 1095},
+	{Label: "3 years or more", MinDays: 1095},
+}
+
+// severity orders statuses from worst to best.
+func severity(s fresh.Status) int {
+	switch s {
+	case fresh.Expired:
+		return 0
+	case fresh.Stale:
+		return 1
+	case fresh.Unknown:
+		return 2
+	case fresh.DueSoon:
+		return 3
+	}
+	return 4
+}
+
+// NewStalenessReport builds the report for docs (whose Info was computed
+// at now under policy p): worst first, then most overdue, then path.
+func NewStalenessReport(docs []DocFreshness, now time.Time, p fresh.Policy) *StalenessReport {
+	r := &StalenessReport{GeneratedAt: now.UTC(), Caution: StalenessCaution, Policy: p}
+	r.Histogram = append([]AgeBucket(nil), ageBuckets...)
+	r.Documents = append([]DocFreshness(nil), docs...)
+	for i := range r.Documents {
+		d := &r.Documents[i]
+		due := d.ReviewBy
+		if d.Expires != nil && (due.IsZero() || d.Expires.Before(due)) {
+			due = *d.Expires
+		}
+		d.OverdueDays, d.DueInDays = 0, 0
+		if !due.IsZero() {
+			days := int((now.Unix() - due.Unix()) / 86400)
+			if d.Status == fresh.Stale || d.Status == fresh.Expired {
+				d.OverdueDays = max(days, 0)
+			} else {
+				d.DueInDays = max(-days, 0)
+			}
+		}
+	}
+	sort.SliceStable(r.Documents, func(i, j int) bool {
+		a, b := r.Documents[i], r.Documents[j]
+		if sa, sb := severity(a.Status), severity(b.Status); sa != sb {
+			return sa < sb
+		}
+		if a.OverdueDays != b.OverdueDays {
+			return a.OverdueDays > b.OverdueDays
+		}
+		if a.DueInDays != b.DueInDays {
+			return a.DueInDays < b.DueInDays
+		}
+		return a.Path < b.Path
+	})
+	byOwner := map[string]*OwnerGroup{}
+	var owners []string
+	for _, d := range r.Documents {
+		r.Counts.add(d.Status)
+		for i := range r.Histogram {
+			b := &r.Histogram[i]
+			if d.AgeDays >= b.MinDays && (b.MaxDays == 0 || d.AgeDays < b.MaxDays) {
+				b.Documents++
+				break
+			}
+		}
+		g := byOwner[d.Owner]
+		if g == nil {
+			g = &OwnerGroup{Owner: d.Owner}
+			byOwner[d.Owner] = g
+			owners = append(owners, d.Owner)
+		}
+		g.Counts.add(d.Status)
+		g.Documents = append(g.Documents, d)
+	}
+	// Owners with the most stale or expired documents first.
+	sort.SliceStable(owners, func(i, j int) bool {
+		a, b := byOwner[owners[i]].Counts, byOwner[owners[j]].Counts
+		if a.StaleOrExpired() != b.StaleOrExpired() {
+			return a.StaleOrExpired() > b.StaleOrExpired()
+		}
+		if a.DueSoon != b.DueSoon {
+			return a.DueSoon > b.DueSoon
+		}
+		return owners[i] < owners[j]
+	})
+	for _, o := range owners {
+		r.Owners = append(r.Owners, *byOwner[o])
+	}
+	return r
+}
+
+// At judges the report's documents again at the instant now, from the
+// dates it recorded: a bundle built months ago tells which pages have gone
+// stale since.
+func (r *StalenessReport) At(now time.Time) *StalenessReport {
+	dueSoon := r.Policy.DueSoon
+	if dueSoon.Days <= 0 {
+		dueSoon = fresh.DefaultPolicy().DueSoon
+	}
+	docs := append([]DocFreshness(nil), r.Documents...)
+	for i := range docs {
+		d := &docs[i]
+		d.Status = d.StatusAt(now, dueSoon)
+		base := d.Updated
+		if d.Reviewed != nil && d.Reviewed.After(base) {
+			base = *d.Reviewed
+		}
+		d.AgeDays = 0
+		if !base.IsZero() {
+			d.AgeDays = max(int((now.Unix()-base.Unix())/86400), 0)
+		}
+	}
+	return NewStalenessReport(docs, now, r.Policy)
+}
