@@ -73,12 +73,11 @@ type DuplicateReport struct {
 	Clusters         []DuplicateCluster `json:"clusters"`
 }
 
-// maskFigures replaces every word holding a digit with "0" before
-// passages are compared. Copies that differ only in their figures (every
-// 30 days here, every 90 days there) then count as copies, as they are,
-// and the divergent-copy check reports them; without the mask each
-// changed figure breaks five shingles and such pairs fall below the
-// threshold in short passages. Reported similarities are on the real text.
+// maskFigures replaces every word holding a digit with "0". A second
+// duplicate search runs over masked texts to find copies that differ only
+// in their figures (every 30 days here, every 90 days there): on the real
+// text each changed figure breaks five shingles, so such pairs often fall
+// below the threshold in short passages and would never be compared.
 func maskFigures(s string) string {
 	if strings.IndexAny(s, "0123456789") < 0 {
 		return s
@@ -90,8 +89,7 @@ func maskFigures(s string) string {
 		for j < len(s) && !asciiSpace(s[j]) {
 			j++
 		}
-		word := s[i:j]
-		if strings.IndexAny(word, "0123456789") >= 0 {
+		if word := s[i:j]; strings.IndexAny(word, "0123456789") >= 0 {
 			b.WriteByte('0')
 		} else {
 			b.WriteString(word)
@@ -107,16 +105,50 @@ func maskFigures(s string) string {
 
 func asciiSpace(c byte) bool { return c == ' ' || c == '\n' || c == '\t' || c == '\r' }
 
+// minDivergentJaccard is the least similarity of the real texts for a pair
+// found only under the figure mask to count as a divergent copy: below it
+// the pair shares its shape, not its content (two parallel reference
+// entries, "see git-hook(1)" against "see gitattributes(5)"). Judgement,
+// no source.
+const minDivergentJaccard = 0.5
+
+// conflicts keeps the differences where both copies hold a figure, or
+// both hold a fact word (a weekday, a month, a unit) and neither a digit:
+// the same slot states two different facts. A run that adds a figure on
+// one side only ("requests" against "requests (default 64)") adds detail
+// rather than contradicting.
+func conflicts(diffs []dedupe.Difference) []dedupe.Difference {
+	var out []dedupe.Difference
+	for _, d := range diffs {
+		if d.Fact && d.A != "" && d.B != "" && hasDigit(d.A) == hasDigit(d.B) {
+			out = append(out, d)
+		}
+	}
+	return out
+}
+
+func hasDigit(s string) bool { return strings.IndexAny(s, "0123456789") >= 0 }
+
 // dedupePassages finds copies among ps (sorted by path and line), keeps
 // one canonical passage per cluster with the others' locations in its
 // AlsoAt, and returns the kept passages and the report. docs gives each
 // path's document, for the canonical mark in its front matter.
+//
+// Copies are folded only when their real texts reach the threshold.
+// Divergent copies are looked for among those clusters and, with figures
+// masked, among passages of different documents: a pair found only that
+// way is reported but both passages stay, since which figure is right is
+// for the owners to settle.
 func dedupePassages(ps []Passage, docs map[string]*sources.Document, opts dedupe.Options) ([]Passage, *DuplicateReport, error) {
+	res, err := dedupe.Find(len(ps), func(i int) string { return ps[i].Text }, opts)
+	if err != nil {
+		return nil, nil, err
+	}
 	masked := make([]string, len(ps))
 	for i := range ps {
 		masked[i] = maskFigures(ps[i].Text)
 	}
-	res, err := dedupe.Find(len(ps), func(i int) string { return masked[i] }, opts)
+	resM, err := dedupe.Find(len(ps), func(i int) string { return masked[i] }, opts)
 	if err != nil {
 		return nil, nil, err
 	}
@@ -135,30 +167,39 @@ func dedupePassages(ps []Passage, docs map[string]*sources.Document, opts dedupe
 		Bands: res.Bands, Rows: res.Rows,
 		CatchAtThreshold: dedupe.CatchProbability(opts.Threshold, res.Bands, res.Rows),
 		CatchAtHalf:      dedupe.CatchProbability(0.5, res.Bands, res.Rows),
-		Passages:         len(ps), Candidates: res.Candidates,
+		Passages:         len(ps), Candidates: res.Candidates + resM.Candidates,
 		Divergent: []DivergentCopy{}, Clusters: []DuplicateCluster{},
 	}
+	// divergent records a pair whose copies state different facts.
+	seen := map[[2]int]bool{}
+	divergent := func(keep, m int, j float64) {
+		if seen[[2]int{keep, m}] || ps[keep].Text == ps[m].Text {
+			return
+		}
+		seen[[2]int{keep, m}] = true
+		diffs, _ := dedupe.Divergent(ps[keep].Text, ps[m].Text)
+		if len(conflicts(diffs)) > 0 {
+			rep.Divergent = append(rep.Divergent, DivergentCopy{
+				Canonical: locate(&ps[keep]), Copy: locate(&ps[m]), Jaccard: j, Differences: diffs,
+			})
+		}
+	}
 	drop := make([]bool, len(ps))
-	for _, c := range res.Clusters {
+	cluster := make([]int, len(ps)) // raw cluster number + 1, 0 for none
+	for ci, c := range res.Clusters {
 		keep, reason := canonical(c.Members, ps, docs)
-		dc := DuplicateCluster{Canonical: locate(&ps[keep]), Reason: reason, Exact: true}
+		dc := DuplicateCluster{Canonical: locate(&ps[keep]), Reason: reason, Exact: c.Exact}
 		var also []string
 		for _, m := range c.Members {
+			cluster[m] = ci + 1
 			if m == keep {
 				continue
 			}
 			drop[m] = true
 			j := 1.0
-			// A cluster that is exact under the figure mask may still
-			// differ in its figures: compare the real texts.
 			if ps[keep].Text != ps[m].Text {
-				dc.Exact = false
 				j = dedupe.Similarity(ps[keep].Text, ps[m].Text, opts.Shingle)
-				if diffs, ok := dedupe.Divergent(ps[keep].Text, ps[m].Text); ok {
-					rep.Divergent = append(rep.Divergent, DivergentCopy{
-						Canonical: locate(&ps[keep]), Copy: locate(&ps[m]), Jaccard: j, Differences: diffs,
-					})
-				}
+				divergent(keep, m, j)
 			}
 			dc.Copies = append(dc.Copies, Copy{Location: locate(&ps[m]), Jaccard: j})
 			also = append(also, locate(&ps[m]).Ref())
@@ -168,6 +209,31 @@ func dedupePassages(ps []Passage, docs map[string]*sources.Document, opts dedupe
 		rep.Clusters = append(rep.Clusters, dc)
 		rep.Removed += len(c.Members) - 1
 	}
+	for _, c := range resM.Clusters {
+		for _, pr := range c.Pairs {
+			a, b := pr.A, pr.B
+			if ps[a].Path == ps[b].Path || (cluster[a] != 0 && cluster[a] == cluster[b]) {
+				continue
+			}
+			j := dedupe.Similarity(ps[a].Text, ps[b].Text, opts.Shingle)
+			if j < minDivergentJaccard {
+				continue
+			}
+			keep, _ := canonical([]int{a, b}, ps, docs)
+			other := a + b - keep
+			divergent(keep, other, j)
+		}
+	}
+	sort.SliceStable(rep.Divergent, func(i, j int) bool {
+		a, b := rep.Divergent[i], rep.Divergent[j]
+		if a.Canonical.Path != b.Canonical.Path {
+			return a.Canonical.Path < b.Canonical.Path
+		}
+		if a.Canonical.Line != b.Canonical.Line {
+			return a.Canonical.Line < b.Canonical.Line
+		}
+		return a.Copy.Ref() < b.Copy.Ref()
+	})
 	kept := make([]Passage, 0, len(ps)-rep.Removed)
 	for i := range ps {
 		if !drop[i] {

@@ -16,10 +16,11 @@ import (
 // change of one word of at most two characters on both sides (a unit
 // symbol) takes the word before: {"30 °C", "30 °F"}.
 type Difference struct {
-	A, B string
+	A string `json:"a"`
+	B string `json:"b"`
 	// Fact reports whether the changed words (not the context) carry a
 	// fact: a number, version, date or unit (see Divergent).
-	Fact bool
+	Fact bool `json:"fact"`
 }
 
 // maxEdits bounds the word edit distance Divergent works out in full; past

@@ -60,10 +60,10 @@ func run(corpora, kbc string, runs int, w io.Writer) error {
 	fmt.Fprintf(w, "| corpus | files | MB | documents | passages | tokens | seconds | MB/s | peak RSS MB |\n")
 	fmt.Fprintf(w, "|---|---|---|---|---|---|---|---|---|\n")
 	for _, e := range entries {
-		if !e.IsDir() || e.Name()[0] == '.' {
+		src := filepath.Join(corpora, e.Name())
+		if st, err := os.Stat(src); err != nil || !st.IsDir() || e.Name()[0] == '.' {
 			continue
 		}
-		src := filepath.Join(corpora, e.Name())
 		var times []float64
 		var peak int64
 		var sum struct {
