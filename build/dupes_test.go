@@ -1,0 +1,84 @@
+package build
+
+import (
+	"strings"
+	"testing"
+	"time"
+
+	"github.com/kbc-project/kbc/build/dedupe"
+	"github.com/kbc-project/kbc/sources"
+)
+
+func TestCanonicalRules(t *testing.T) {
+	day := func(d int) time.Time { return time.Date(2026, 1, d, 0, 0, 0, 0, time.UTC) }
+	ps := []Passage{
+		{Path: "b/long/path.md", Line: 1, Updated: day(5)},
+		{Path: "a/x.md", Line: 1, Updated: day(9)},
+		{Path: "a/y.md", Line: 1, Updated: day(9)},
+		{Path: "zz.md", Line: 1, Updated: day(9)},
+		{Path: "zz.md", Line: 9, Updated: day(9)},
+		{Path: "old/marked.md", Line: 1, Updated: day(1)},
+	}
+	docs := map[string]*sources.Document{"old/marked.md": {Front: map[string]any{"canonical": true}}}
+	tests := []struct {
+		members []int
+		want    int
+		reason  string
+	}{
+		{[]int{0, 5, 1}, 5, "marked canonical"},
+		{[]int{0, 1}, 1, "freshest"},
+		{[]int{1, 3}, 3, "shortest path"},
+		{[]int{2, 1}, 1, "path order"},
+		{[]int{4, 3}, 3, "path order"}, // same page: the earlier line
+	}
+	for _, tc := range tests {
+		got, reason := canonical(tc.members, ps, docs)
+		if got != tc.want || reason != tc.reason {
+			t.Errorf("canonical(%v) = %d (%s), want %d (%s)", tc.members, got, reason, tc.want, tc.reason)
+		}
+	}
+}
+
+func TestConflicts(t *testing.T) {
+	tests := []struct {
+		d    dedupe.Difference
+		want bool
+	}{
+		{dedupe.Difference{A: "30 days", B: "90 days", Fact: true}, true},
+		{dedupe.Difference{A: "v1.2", B: "v1.3", Fact: true}, true},
+		{dedupe.Difference{A: "Tuesday", B: "Thursday", Fact: true}, true},
+		{dedupe.Difference{A: "requests", B: "requests (default 64", Fact: true}, false},
+		{dedupe.Difference{A: "", B: "30 days", Fact: true}, false},
+		{dedupe.Difference{A: "in", B: "on the sheet and in", Fact: false}, false},
+	}
+	for _, tc := range tests {
+		if got := len(conflicts([]dedupe.Difference{tc.d})) > 0; got != tc.want {
+			t.Errorf("conflicts(%+v) = %v, want %v", tc.d, got, tc.want)
+		}
+	}
+}
+
+func TestMaskFigures(t *testing.T) {
+	got := maskFigures("checked every 30 days\nby v1.2 (or 2026-01-04) tools")
+	if want := "checked every 0 days\nby 0 (or 0 tools"; got != want {
+		t.Errorf("maskFigures = %q, want %q", got, want)
+	}
+}
+
+// TestDedupePassagesKeepsParallelSections: sections that share a shape
+// but not a subject must not be folded, even though they are identical
+// once figures are masked.
+func TestDedupePassagesKeepsParallelSections(t *testing.T) {
+	body := "The codec encodes text as UTF-%s and decodes it back; errors are handled by the handler named in errors, and byteorder picks the byte order when it is not given by a mark at the start of the data."
+	ps := []Passage{
+		{ID: "a", Path: "api.html", Line: 1, Text: strings.ReplaceAll(body, "%s", "16")},
+		{ID: "b", Path: "api.html", Line: 9, Text: strings.ReplaceAll(body, "%s", "32")},
+	}
+	kept, rep, err := dedupePassages(ps, nil, dedupe.DefaultOptions())
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(kept) != 2 || rep.Removed != 0 || len(rep.Divergent) != 0 {
+		t.Errorf("kept %d, removed %d, divergent %d; want 2, 0, 0", len(kept), rep.Removed, len(rep.Divergent))
+	}
+}
