@@ -43,6 +43,9 @@ type Input struct {
 	// sets "passages" and "tokens" itself and, when the caller gives no
 	// "documents", counts the distinct passage paths.
 	Counts map[string]int
+	// Prior is the bundle this one replaces, for delta.json; nil for a
+	// first build, whose delta lists every passage as added.
+	Prior *Prior
 	// Files are extra files (reports), by slash path inside the bundle,
 	// written as they are and listed in the manifest. A path must be
 	// valid for fs.ValidPath, must not contain a backslash and must not
@@ -111,7 +114,7 @@ func write(out string, in *Input, hook func(tmp string) error) (_ *Manifest, err
 // files.
 func reserved(name string) bool {
 	switch name {
-	case ManifestFile, PassagesFile, SchemaFile, IndexDir:
+	case ManifestFile, PassagesFile, SchemaFile, IndexDir, DeltaFile:
 		return true
 	}
 	return strings.HasPrefix(name, IndexDir+"/")
@@ -307,6 +310,30 @@ func writeTree(dir string, in *Input) (*Manifest, error) {
 		return nil, err
 	}
 	m.BundleID = strings.TrimPrefix(m.Files[PassagesFile], "sha256:")
+
+	// delta.json: what changed against the bundle this one replaces.
+	sorted := make([]build.Passage, len(order))
+	for j, i := range order {
+		sorted[j] = in.Passages[i]
+	}
+	var prior []build.Passage
+	delta := &Delta{}
+	if in.Prior != nil {
+		prior, delta.From = in.Prior.Passages, in.Prior.ID
+	}
+	d := Diff(prior, sorted)
+	d.From, d.To = delta.From, m.BundleID
+	m.Files[DeltaFile], err = writeFile(dir, DeltaFile, func(w io.Writer) error {
+		data, err := MarshalReport(d)
+		if err != nil {
+			return err
+		}
+		_, err = w.Write(data)
+		return err
+	})
+	if err != nil {
+		return nil, err
+	}
 
 	m.Files[SchemaFile], err = writeFile(dir, SchemaFile, bytesWriter(schema))
 	if err != nil {

@@ -133,7 +133,7 @@ func (g gates) check(st *build.StalenessReport, divergent int, stderr io.Writer)
 // compile checks src and runs the pipeline over it, printing each bad
 // input file as one line on stderr. It returns the exit code to stop with,
 // or -1 to go on.
-func compile(fs *flag.FlagSet, sf *sourceFlags, src string, now time.Time, stderr io.Writer) (*build.Result, build.Options, gates, int) {
+func compile(ctx context.Context, fs *flag.FlagSet, sf *sourceFlags, src string, now time.Time, stderr io.Writer) (*build.Result, build.Options, gates, int) {
 	if st, err := os.Stat(src); err != nil || !st.IsDir() {
 		if err == nil {
 			err = errors.New("not a folder")
@@ -154,18 +154,66 @@ func compile(fs *flag.FlagSet, sf *sourceFlags, src string, now time.Time, stder
 	opts.GitDir = src
 	bar := newProgress(stderr)
 	opts.Progress = bar.update
-	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
-	defer stop()
 	res, err := build.Run(ctx, os.DirFS(src), opts)
 	bar.finish()
 	if err != nil {
 		fmt.Fprintf(stderr, "kbc %s: %v\n", fs.Name(), err)
 		return nil, opts, g, exitFailure
 	}
+	return res, opts, g, -1
+}
+
+// interrupted returns a context cancelled by Ctrl-C or SIGTERM.
+func interrupted() (context.Context, context.CancelFunc) {
+	return signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
+}
+
+func printProblems(res *build.Result, stderr io.Writer) {
 	for _, p := range res.Problems {
 		fmt.Fprintln(stderr, p.Error())
 	}
-	return res, opts, g, -1
+}
+
+// writeBundle writes a build's bundle, reports and delta into out and
+// returns its manifest and delta.
+func writeBundle(out, src string, res *build.Result, opts build.Options, builtAt time.Time, stderr io.Writer) (*bundle.Manifest, *bundle.Delta, error) {
+	files, err := reportFiles(res)
+	if err != nil {
+		return nil, nil, err
+	}
+	commit, dirty := build.SourceCommit(src)
+	st := res.Stats
+	in := &bundle.Input{
+		Passages: res.Passages,
+		Settings: manifestSettings{Settings: opts.Settings, Include: opts.Walk.Include, Exclude: opts.Walk.Exclude,
+			MaxFileSize: opts.Walk.MaxSize, Duplicates: opts.Dedupe, Freshness: opts.Fresh},
+		Tool:         "kbc " + version,
+		SourceCommit: commit,
+		SourceDirty:  dirty,
+		BuiltAt:      builtAt,
+		Counts: map[string]int{
+			"documents": st.Documents, "empty_documents": st.Empty, "skipped": st.Skipped,
+			"warnings": st.Warnings, "boilerplate_dropped": st.BoilerplateDropped,
+			"duplicates_removed": st.Duplicates, "divergent_copies": st.Divergent, "stale_documents": st.Stale,
+		},
+		Files: files,
+	}
+	prior, err := bundle.ReadPrior(out)
+	if err != nil {
+		fmt.Fprintf(stderr, "kbc: the bundle in %s cannot be read (%v); the delta lists every passage as added\n", out, err)
+		prior = nil
+	}
+	in.Prior = prior
+	m, err := bundle.Write(out, in)
+	if err != nil {
+		return nil, nil, err
+	}
+	var delta bundle.Delta
+	data, err := os.ReadFile(filepath.Join(out, bundle.DeltaFile))
+	if err == nil {
+		err = json.Unmarshal(data, &delta)
+	}
+	return m, &delta, err
 }
 
 func runBuild(args []string, stdout, stderr io.Writer) int {
@@ -204,44 +252,28 @@ func runBuild(args []string, stdout, stderr io.Writer) int {
 		sf.exclude = append(sf.exclude, rel, "."+filepath.Base(rel)+".tmp-*")
 	}
 	start := time.Now()
-	res, opts, g, code := compile(fs, sf, src, builtAt, stderr)
+	ctx, stop := interrupted()
+	defer stop()
+	res, opts, g, code := compile(ctx, fs, sf, src, builtAt, stderr)
 	if code >= 0 {
 		return code
 	}
+	printProblems(res, stderr)
 	if *strict && len(res.Problems) > 0 {
 		fmt.Fprintf(stderr, "kbc build: %v\n", res.Strict())
 		return exitFailure
 	}
-	files, err := reportFiles(res)
-	if err != nil {
-		fmt.Fprintf(stderr, "kbc build: %v\n", err)
-		return exitFailure
-	}
-	commit, dirty := build.SourceCommit(src)
-	st := res.Stats
-	in := &bundle.Input{
-		Passages: res.Passages,
-		Settings: manifestSettings{Settings: opts.Settings, Include: opts.Walk.Include, Exclude: opts.Walk.Exclude,
-			MaxFileSize: opts.Walk.MaxSize, Duplicates: opts.Dedupe, Freshness: opts.Fresh},
-		Tool:         "kbc " + version,
-		SourceCommit: commit,
-		SourceDirty:  dirty,
-		BuiltAt:      builtAt,
-		Counts: map[string]int{
-			"documents": st.Documents, "empty_documents": st.Empty, "skipped": st.Skipped,
-			"warnings": st.Warnings, "boilerplate_dropped": st.BoilerplateDropped,
-			"duplicates_removed": st.Duplicates, "divergent_copies": st.Divergent, "stale_documents": st.Stale,
-		},
-		Files: files,
-	}
-	m, err := bundle.Write(*out, in)
+	m, delta, err := writeBundle(*out, src, res, opts, builtAt, stderr)
 	if err != nil {
 		fmt.Fprintf(stderr, "kbc build: %v\n", err)
 		return exitFailure
 	}
 	sum := summary{Source: src, Out: *out, BundleID: m.BundleID, Stats: res.Stats,
+		Added: len(delta.Added), Changed: len(delta.Changed), Removed: len(delta.Removed),
 		BoilerplateTexts: len(res.Boilerplate), Staleness: res.Staleness.Counts,
-		Bands: res.Duplicates.Bands, Rows: res.Duplicates.Rows, Seconds: time.Since(start).Seconds()}
+		Bands: res.Duplicates.Bands, Rows: res.Duplicates.Rows, Threshold: res.Duplicates.Threshold,
+		CatchAtThreshold: res.Duplicates.CatchAtThreshold, CatchAtHalf: res.Duplicates.CatchAtHalf,
+		Seconds: time.Since(start).Seconds()}
 	if *asJSON {
 		enc := json.NewEncoder(stdout)
 		enc.SetIndent("", "  ")
@@ -283,6 +315,12 @@ type summary struct {
 	Staleness        build.StatusCounts `json:"staleness"`
 	Bands            int                `json:"lsh_bands"`
 	Rows             int                `json:"lsh_rows"`
+	Threshold        float64            `json:"dup_threshold"`
+	CatchAtThreshold float64            `json:"lsh_catch_at_threshold"`
+	CatchAtHalf      float64            `json:"lsh_catch_at_0_5"`
+	Added            int                `json:"added"`   // passages, against the bundle replaced
+	Changed          int                `json:"changed"` // (see delta.json)
+	Removed          int                `json:"removed"`
 	Seconds          float64            `json:"seconds"`
 }
 
@@ -298,15 +336,18 @@ func (s summary) print(w io.Writer) {
 		fmt.Fprintf(w, " (%d cut from blocks over the budget)", st.SplitPassages)
 	}
 	fmt.Fprintf(w, "\n  tokens       %d\n", st.Tokens)
-	fmt.Fprintf(w, "  duplicates   %d copies folded into their canonical passage (LSH %d bands x %d rows)", st.Duplicates, s.Bands, s.Rows)
+	fmt.Fprintf(w, "  duplicates   %d copies folded into their canonical passage", st.Duplicates)
 	if st.Divergent > 0 {
 		fmt.Fprintf(w, "; %d divergent", st.Divergent)
 	}
+	fmt.Fprintf(w, "\n  near copies  Jaccard >= %g; LSH %d bands x %d rows catches %.1f%% of pairs at %g, %.1f%% at 0.5",
+		s.Threshold, s.Bands, s.Rows, 100*s.CatchAtThreshold, s.Threshold, 100*s.CatchAtHalf)
 	fmt.Fprintf(w, "\n  boilerplate  %d blocks dropped (%d distinct texts)\n", st.BoilerplateDropped, s.BoilerplateTexts)
 	c := s.Staleness
 	fmt.Fprintf(w, "  freshness    %d fresh, %d due soon, %d stale, %d expired\n", c.Fresh, c.DueSoon, c.Stale, c.Expired)
 	fmt.Fprintf(w, "  warnings     %d\n", st.Warnings)
 	fmt.Fprintf(w, "  bundle id    %s\n", s.BundleID)
+	fmt.Fprintf(w, "  delta        %d added, %d changed, %d removed\n", s.Added, s.Changed, s.Removed)
 	fmt.Fprintf(w, "  time         %.2fs\n", s.Seconds)
 }
 

@@ -6,6 +6,7 @@
 //	kbc build SRC -o OUT [--strict] [--include GLOB] [--exclude GLOB]
 //	kbc query OUT "question" [-k 10] [--json]
 //	kbc stale SRC|OUT [--json] [--max-stale N|N%] [--fail-on-divergent]
+//	kbc diff A B [--json]
 //	kbc verify OUT [--json]
 //	kbc version
 //
@@ -45,6 +46,7 @@ func commands() []command {
 		{"build", "compile a docs folder into a bundle", runBuild},
 		{"query", "search a bundle", runQuery},
 		{"stale", "report stale pages of a docs folder or bundle", runStale},
+		{"diff", "list passages added, changed and removed between two bundles", runDiff},
 		{"verify", "re-hash a bundle's files against its manifest", runVerify},
 		{"version", "print the version", func(_ []string, stdout, _ io.Writer) int {
 			fmt.Fprintf(stdout, "kbc %s\n", version)

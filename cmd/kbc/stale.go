@@ -48,10 +48,13 @@ func runStale(args []string, stdout, stderr io.Writer) int {
 		}
 		g.divergent = sf.failOnDivergent
 	} else {
-		res, _, gg, code := compile(fs, sf, pos[0], now, stderr)
+		ctx, stop := interrupted()
+		defer stop()
+		res, _, gg, code := compile(ctx, fs, sf, pos[0], now, stderr)
 		if code >= 0 {
 			return code
 		}
+		printProblems(res, stderr)
 		st, divergent, g = res.Staleness, res.Stats.Divergent, gg
 	}
 	if *asJSON {

@@ -1,0 +1,114 @@
+package bundle
+
+import (
+	"bufio"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"io/fs"
+	"os"
+	"path/filepath"
+	"sort"
+
+	"github.com/kbc-project/kbc/build"
+)
+
+// DeltaFile is the name of the delta inside a bundle.
+const DeltaFile = "delta.json"
+
+// Change is one passage whose text changed between two bundles.
+type Change struct {
+	ID      string `json:"id"`
+	OldHash string `json:"old_hash"`
+	NewHash string `json:"new_hash"`
+}
+
+// Delta is what changed between two bundles, passage by passage: what a
+// vector store downstream must embed again (added and changed) or forget
+// (removed). A passage whose text is the same but whose metadata moved
+// (lines, dates) is not a change: its embedding stays valid.
+type Delta struct {
+	From    string   `json:"from,omitempty"` // bundle id of the older bundle; empty for the first build
+	To      string   `json:"to"`             // bundle id of the newer bundle
+	Added   []string `json:"added"`          // passage ids
+	Changed []Change `json:"changed"`
+	Removed []string `json:"removed"` // passage ids
+}
+
+// Empty reports whether nothing was added, changed or removed.
+func (d *Delta) Empty() bool {
+	return len(d.Added) == 0 && len(d.Changed) == 0 && len(d.Removed) == 0
+}
+
+// Diff compares the passages of two bundles by id and text hash. The
+// result is sorted by id.
+func Diff(old, cur []build.Passage) *Delta {
+	d := &Delta{Added: []string{}, Changed: []Change{}, Removed: []string{}}
+	before := make(map[string]string, len(old))
+	for _, p := range old {
+		before[p.ID] = p.Hash
+	}
+	seen := make(map[string]bool, len(cur))
+	for _, p := range cur {
+		seen[p.ID] = true
+		h, ok := before[p.ID]
+		switch {
+		case !ok:
+			d.Added = append(d.Added, p.ID)
+		case h != p.Hash:
+			d.Changed = append(d.Changed, Change{ID: p.ID, OldHash: h, NewHash: p.Hash})
+		}
+	}
+	for _, p := range old {
+		if !seen[p.ID] {
+			d.Removed = append(d.Removed, p.ID)
+		}
+	}
+	sort.Strings(d.Added)
+	sort.Strings(d.Removed)
+	sort.Slice(d.Changed, func(i, j int) bool { return d.Changed[i].ID < d.Changed[j].ID })
+	return d
+}
+
+// ReadPassages reads every passage of the bundle in dir.
+func ReadPassages(dir string) ([]build.Passage, error) {
+	f, err := os.Open(filepath.Join(dir, PassagesFile))
+	if err != nil {
+		return nil, err
+	}
+	defer f.Close()
+	var out []build.Passage
+	sc := bufio.NewScanner(f)
+	sc.Buffer(nil, 1<<28)
+	for line := 1; sc.Scan(); line++ {
+		var p build.Passage
+		if err := json.Unmarshal(sc.Bytes(), &p); err != nil {
+			return nil, fmt.Errorf("%s:%d: %v", filepath.Join(dir, PassagesFile), line, err)
+		}
+		out = append(out, p)
+	}
+	return out, sc.Err()
+}
+
+// Prior is the bundle a new build replaces, which its delta is against.
+type Prior struct {
+	ID       string
+	Passages []build.Passage
+}
+
+// ReadPrior reads the bundle that a new build into dir will replace. A
+// dir that holds no bundle yet gives nil and no error.
+func ReadPrior(dir string) (*Prior, error) {
+	m, err := ReadManifest(dir)
+	if errors.Is(err, fs.ErrNotExist) {
+		return nil, nil
+	}
+	if err != nil {
+		return nil, err
+	}
+	ps, err := ReadPassages(dir)
+	if err != nil {
+		return nil, err
+	}
+	return &Prior{ID: m.BundleID, Passages: ps}, nil
+}
