@@ -4,6 +4,7 @@
 // Usage:
 //
 //	kbc build SRC -o OUT [--strict] [--include GLOB] [--exclude GLOB]
+//	kbc watch SRC -o OUT [--debounce 150ms]
 //	kbc query OUT "question" [-k 10] [--json]
 //	kbc stale SRC|OUT [--json] [--max-stale N|N%] [--fail-on-divergent]
 //	kbc diff A B [--json]
@@ -44,6 +45,7 @@ type command struct {
 func commands() []command {
 	return []command{
 		{"build", "compile a docs folder into a bundle", runBuild},
+		{"watch", "rebuild a bundle whenever a page changes", runWatch},
 		{"query", "search a bundle", runQuery},
 		{"stale", "report stale pages of a docs folder or bundle", runStale},
 		{"diff", "list passages added, changed and removed between two bundles", runDiff},

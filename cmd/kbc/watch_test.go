@@ -1,0 +1,89 @@
+package main
+
+import (
+	"bytes"
+	"context"
+	"os"
+	"path/filepath"
+	"strings"
+	"sync"
+	"testing"
+	"time"
+)
+
+// lockedBuffer is a bytes.Buffer safe for one writer and one reader.
+type lockedBuffer struct {
+	mu sync.Mutex
+	b  bytes.Buffer
+}
+
+func (l *lockedBuffer) Write(p []byte) (int, error) {
+	l.mu.Lock()
+	defer l.mu.Unlock()
+	return l.b.Write(p)
+}
+
+func (l *lockedBuffer) String() string {
+	l.mu.Lock()
+	defer l.mu.Unlock()
+	return l.b.String()
+}
+
+// waitFor polls until out holds want n times, or fails after a generous
+// timeout (the machine may be loaded; nothing here measures speed).
+func waitFor(t *testing.T, out *lockedBuffer, want string, n int) {
+	t.Helper()
+	deadline := time.Now().Add(20 * time.Second)
+	for strings.Count(out.String(), want) < n {
+		if time.Now().After(deadline) {
+			t.Fatalf("waited for %d x %q; output:\n%s", n, want, out.String())
+		}
+		time.Sleep(20 * time.Millisecond)
+	}
+}
+
+// TestWatchCommand drives kbc watch with real file events: the first
+// build, an edit, a broken page that keeps the last good bundle, a fix,
+// and a clean stop that leaves a complete bundle.
+func TestWatchCommand(t *testing.T) {
+	src := t.TempDir()
+	out := filepath.Join(t.TempDir(), "b")
+	page := filepath.Join(src, "seals.md")
+	write := func(p, s string) {
+		t.Helper()
+		if err := os.WriteFile(p, []byte(s), 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	write(page, "# Door seals\n\nSeals are checked every 30 days by the workshop, and after any impact to the rear doors.\n")
+	ctx, cancel := context.WithCancel(context.Background())
+	var stdout, stderr lockedBuffer
+	done := make(chan int)
+	go func() { done <- watchUntil(ctx, []string{src, "-o", out, "--debounce", "20ms"}, &stdout, &stderr) }()
+
+	waitFor(t, &stdout, "watching ", 1)
+	write(page, "# Door seals\n\nSeals are checked every 90 days by the workshop, and after any impact to the rear doors.\n")
+	waitFor(t, &stdout, "0 added, 1 changed, 0 removed", 1)
+
+	// A page that breaks while being edited is named; the bundle stays.
+	write(filepath.Join(src, "bad.md"), "---\ntitle: [\n---\n# Half written\n\nText.\n")
+	waitFor(t, &stderr, "bad.md:2: front matter", 1)
+	waitFor(t, &stdout, "1 new warning(s)", 1)
+
+	cancel()
+	select {
+	case code := <-done:
+		if code != exitOK {
+			t.Fatalf("exit %d; stderr:\n%s", code, stderr.String())
+		}
+	case <-time.After(5 * time.Second):
+		t.Fatal("watch did not stop within 5 s of cancel")
+	}
+	if !strings.Contains(stdout.String(), "stopped; the last complete bundle is in") {
+		t.Errorf("stdout:\n%s", stdout.String())
+	}
+	var o, e bytes.Buffer
+	if code := run([]string{"verify", out}, &o, &e); code != exitOK {
+		t.Errorf("verify after watch: exit %d\n%s%s", code, o.String(), e.String())
+	}
+}

@@ -1,0 +1,118 @@
+package main
+
+import (
+	"context"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"strings"
+	"time"
+
+	"github.com/kbc-project/kbc/build"
+	"github.com/kbc-project/kbc/watch"
+)
+
+func runWatch(args []string, stdout, stderr io.Writer) int {
+	ctx, stop := interrupted()
+	defer stop()
+	return watchUntil(ctx, args, stdout, stderr)
+}
+
+// watchUntil runs the watch command until ctx is done.
+func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) int {
+	fs := newFlags("watch", "watch SRC -o OUT [flags]",
+		"Watch builds the bundle like build, then watches SRC and rebuilds whenever a page\n"+
+			"changes, after a quiet period. After each rebuild it prints one line: time taken,\n"+
+			"passages added, changed and removed, new warnings, and changes in stale pages and\n"+
+			"divergent copies. A page that does not parse while being edited is named with its\n"+
+			"path:line and the last good bundle stays. Ctrl-C stops it; the last complete\n"+
+			"bundle is left in OUT.",
+		"kbc watch docs -o /tmp/docs-bundle --debounce 300ms", stderr)
+	out := fs.String("o", "", "bundle folder to write (required)")
+	fs.StringVar(out, "out", "", "same as -o")
+	debounce := fs.Duration("debounce", watch.DefaultDebounce, "quiet period after the last change before a rebuild")
+	sf := addSourceFlags(fs)
+	pos, code := parseArgs(fs, args, stdout)
+	if code >= 0 {
+		return code
+	}
+	if len(pos) != 1 {
+		return badUsage(fs, stderr, "want one source folder, got %d arguments", len(pos))
+	}
+	if *out == "" {
+		return badUsage(fs, stderr, "missing -o OUT")
+	}
+	src := pos[0]
+	// Never read our own output (or its temporary siblings) as a source.
+	ignore := func(string, bool) bool { return false }
+	if rel, err := filepath.Rel(src, *out); err == nil && rel != "." && !strings.HasPrefix(rel, "..") {
+		rel = filepath.ToSlash(rel)
+		sf.exclude = append(sf.exclude, rel, "."+filepath.Base(rel)+".tmp-*")
+		ignore = func(p string, _ bool) bool { return p == rel || strings.HasPrefix(p, rel+"/") }
+	}
+	// The watcher starts before the first build, so edits made during it
+	// arrive as the first change.
+	w, err := watch.New(src, watch.Options{Debounce: *debounce, Ignore: ignore,
+		OnError: func(err error) { fmt.Fprintf(stderr, "kbc watch: %v\n", err) }})
+	if err != nil {
+		if st, serr := os.Stat(src); serr != nil || !st.IsDir() {
+			return badUsage(fs, stderr, "source %s: not a folder", src)
+		}
+		fmt.Fprintf(stderr, "kbc watch: %v\n", err)
+		return exitFailure
+	}
+	defer w.Close()
+
+	var last *build.Result
+	seen := map[string]bool{}
+	rebuild := func(ctx context.Context) {
+		start := time.Now()
+		now, err := buildTime(os.Getenv("SOURCE_DATE_EPOCH"), time.Now)
+		if err != nil {
+			fmt.Fprintf(stderr, "kbc watch: %v\n", err)
+			return
+		}
+		res, opts, _, code := compile(ctx, fs, sf, src, now, stderr)
+		if code >= 0 {
+			return // compile said why; the last good bundle stays
+		}
+		fresh := 0
+		for _, p := range res.Problems {
+			if !seen[p.Error()] {
+				seen[p.Error()] = true
+				fresh++
+				fmt.Fprintln(stderr, p.Error())
+			}
+		}
+		m, delta, err := writeBundle(*out, src, res, opts, now, stderr)
+		if err != nil {
+			fmt.Fprintf(stderr, "kbc watch: %v (the last good bundle stays)\n", err)
+			return
+		}
+		line := fmt.Sprintf("%s rebuilt in %.2fs: %d added, %d changed, %d removed; %d new warning(s); bundle %.12s",
+			time.Now().Format("15:04:05"), time.Since(start).Seconds(), len(delta.Added), len(delta.Changed), len(delta.Removed), fresh, m.BundleID)
+		if last != nil {
+			if d := res.Stats.Stale - last.Stats.Stale; d != 0 {
+				line += fmt.Sprintf("; stale %+d (now %d)", d, res.Stats.Stale)
+			}
+			if d := res.Stats.Divergent - last.Stats.Divergent; d != 0 {
+				line += fmt.Sprintf("; divergent copies %+d (now %d)", d, res.Stats.Divergent)
+			}
+		}
+		fmt.Fprintln(stdout, line)
+		last = res
+	}
+	rebuild(ctx)
+	fmt.Fprintf(stdout, "watching %s (Ctrl-C to stop)\n", src)
+	err = w.Run(ctx, func(ctx context.Context, c watch.Change) error {
+		rebuild(ctx)
+		return nil
+	})
+	if err != nil {
+		fmt.Fprintf(stderr, "kbc watch: %v\n", err)
+		return exitFailure
+	}
+	fmt.Fprintf(stdout, "stopped; the last complete bundle is in %s\n", *out)
+	return exitOK
+}
