@@ -9,6 +9,10 @@
 //	kbc stale SRC|OUT [--json] [--max-stale N|N%] [--fail-on-divergent]
 //	kbc diff A B [--json]
 //	kbc verify OUT [--json]
+//	kbc publish OUT DEST [--tag NAME]...
+//	kbc pull SRC DIR [--tag NAME | --id ID]
+//	kbc versions STORE [--json]
+//	kbc prune STORE --keep N
 //	kbc version
 //
 // Run "kbc COMMAND --help" for the flags of one command. Exit codes: 0 ok,
@@ -50,6 +54,10 @@ func commands() []command {
 		{"stale", "report stale pages of a docs folder or bundle", runStale},
 		{"diff", "list passages added, changed and removed between two bundles", runDiff},
 		{"verify", "re-hash a bundle's files against its manifest", runVerify},
+		{"publish", "upload a bundle to a folder, S3 or OCI store", runPublish},
+		{"pull", "download and verify a bundle from a store", runPull},
+		{"versions", "list the bundles in a store", runVersions},
+		{"prune", "remove old bundles from a store", runPrune},
 		{"version", "print the version", func(_ []string, stdout, _ io.Writer) int {
 			fmt.Fprintf(stdout, "kbc %s\n", version)
 			return exitOK
