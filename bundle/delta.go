@@ -94,6 +94,10 @@ func ReadPassages(dir string) ([]build.Passage, error) {
 type Prior struct {
 	ID       string
 	Passages []build.Passage
+	// Dir and Manifest, when set, let Write reuse the prior bundle's index
+	// files when the new bundle indexes exactly the same content.
+	Dir      string
+	Manifest *Manifest
 }
 
 // ReadPrior reads the bundle that a new build into dir will replace. A
@@ -110,5 +114,5 @@ func ReadPrior(dir string) (*Prior, error) {
 	if err != nil {
 		return nil, err
 	}
-	return &Prior{ID: m.BundleID, Passages: ps}, nil
+	return &Prior{ID: m.BundleID, Passages: ps, Dir: dir, Manifest: m}, nil
 }

@@ -1,6 +1,7 @@
 package bundle
 
 import (
+	"os"
 	"reflect"
 	"testing"
 
@@ -17,5 +18,47 @@ func TestDiff(t *testing.T) {
 	}
 	if !Diff(cur, cur).Empty() {
 		t.Error("a bundle differs from itself")
+	}
+}
+
+// TestWriteReusesIndex: a rebuild whose indexed content is unchanged (here
+// only a date moved) copies the prior index instead of building it; a
+// prior index that no longer matches its manifest is never reused.
+func TestWriteReusesIndex(t *testing.T) {
+	out := t.TempDir() + "/b"
+	ps := genPassages(300, 7)
+	mustWrite(t, out, &Input{Passages: ps})
+	first := treeHashes(t, out+"/index")
+
+	prior, err := ReadPrior(out)
+	if err != nil {
+		t.Fatal(err)
+	}
+	moved := append([]build.Passage(nil), ps...)
+	moved[0].Line += 3
+	moved[0].EndLine += 3
+	m := mustWrite(t, out, &Input{Passages: moved, Prior: prior})
+	if got := treeHashes(t, out+"/index"); !reflect.DeepEqual(got, first) {
+		t.Error("index files changed although the indexed content did not")
+	}
+	if bad, err := Verify(out); err != nil || len(bad) != 0 {
+		t.Fatalf("verify: %v %v", bad, err)
+	}
+
+	// Tamper with the prior index: the next write must build a fresh one.
+	prior, _ = ReadPrior(out)
+	if err := os.WriteFile(out+"/index/stats.json", []byte(`{"content":"x"}`), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	prior.Manifest = m
+	mustWrite(t, out, &Input{Passages: moved, Prior: prior})
+	if bad, err := Verify(out); err != nil || len(bad) != 0 {
+		t.Fatalf("verify after rebuilding over a tampered index: %v %v", bad, err)
+	}
+	b := mustOpen(t, out)
+	defer b.Close()
+	hits, err := b.Search(ps[5].Text, 1)
+	if err != nil || len(hits) == 0 {
+		t.Fatalf("search after rebuild: %v %v", hits, err)
 	}
 }

@@ -2,6 +2,8 @@ package bundle
 
 import (
 	"bytes"
+	"crypto/sha256"
+	"encoding/hex"
 	"encoding/json"
 	"errors"
 	"fmt"
@@ -114,6 +116,10 @@ type fieldStats struct {
 // indexStats is index/stats.json: what Search needs beyond the bleve index
 // to compute BM25 exactly. It is written once, at build time.
 type indexStats struct {
+	// Content is the SHA-256 of what the index holds (each passage's id,
+	// title, heading trail and text, in order): a new build whose content
+	// is the same reuses the previous bundle's index files.
+	Content  string                `json:"content"`
 	Analyzer string                `json:"analyzer"`
 	B        float64               `json:"b"`
 	Boosts   map[string]float64    `json:"boosts"`
@@ -158,6 +164,7 @@ func (s *indexStats) avgdl(f string) float64 {
 func buildIndex(dir string, ps []build.Passage, order []int) (*indexStats, error) {
 	m := newMapping()
 	st := &indexStats{
+		Content:  indexContent(ps, order),
 		Analyzer: en.AnalyzerName,
 		B:        bm25B,
 		K1:       bm25K1,
@@ -435,4 +442,16 @@ func copyBucket(dst, src *bolt.Bucket, name, epoch []byte) error {
 		}
 		return dst.Put(k, v)
 	})
+}
+
+// indexContent hashes exactly what buildIndex puts into the index and
+// how: the fields of each passage in order, and the ranking parameters.
+func indexContent(ps []build.Passage, order []int) string {
+	h := sha256.New()
+	fmt.Fprintf(h, "kbc-index 1 %s %g %g %g %g %g\x00", en.AnalyzerName, bm25K1, bm25B, boostTitle, boostHeading, boostText)
+	for _, i := range order {
+		p := &ps[i]
+		fmt.Fprintf(h, "%d:%s%d:%s%d:%s%d:%s", len(p.ID), p.ID, len(p.Title), p.Title, len(p.Text), p.Text, len(p.Heading), strings.Join(p.Heading, "\x00"))
+	}
+	return hex.EncodeToString(h.Sum(nil))
 }

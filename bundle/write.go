@@ -3,6 +3,7 @@ package bundle
 import (
 	"bufio"
 	"crypto/sha256"
+	"encoding/hex"
 	"encoding/json"
 	"errors"
 	"fmt"
@@ -340,17 +341,20 @@ func writeTree(dir string, in *Input) (*Manifest, error) {
 		return nil, err
 	}
 
-	st, err := buildIndex(filepath.Join(dir, filepath.FromSlash(IndexDir)), in.Passages, order)
-	if err != nil {
-		return nil, err
-	}
-	stats, err := json.MarshalIndent(st, "", "  ")
-	if err != nil {
-		return nil, err
-	}
-	stats = append(stats, '\n')
-	// The index's own files: hashed, made 0644 and flushed here.
 	indexDir := filepath.Join(dir, filepath.FromSlash(IndexDir))
+	var stats []byte
+	if !reuseIndex(in.Prior, indexDir, indexContent(in.Passages, order)) {
+		st, err := buildIndex(indexDir, in.Passages, order)
+		if err != nil {
+			return nil, err
+		}
+		stats, err = json.MarshalIndent(st, "", "  ")
+		if err != nil {
+			return nil, err
+		}
+		stats = append(stats, '\n')
+	}
+	// The index's own files: hashed, made 0644 and flushed here.
 	err = filepath.WalkDir(indexDir, func(p string, d fs.DirEntry, err error) error {
 		if err != nil {
 			return err
@@ -369,9 +373,11 @@ func writeTree(dir string, in *Input) (*Manifest, error) {
 	if err != nil {
 		return nil, fmt.Errorf("index: %w", err)
 	}
-	m.Files[StatsFile], err = writeFile(dir, StatsFile, bytesWriter(stats))
-	if err != nil {
-		return nil, err
+	if stats != nil {
+		m.Files[StatsFile], err = writeFile(dir, StatsFile, bytesWriter(stats))
+		if err != nil {
+			return nil, err
+		}
 	}
 
 	for name, data := range in.Files {
@@ -523,4 +529,76 @@ func place(tmp, out string, swap func(a, b string) error) error {
 	}
 	os.RemoveAll(old)
 	return nil
+}
+
+// reuseIndex copies the prior bundle's index into indexDir when it holds
+// exactly the content the new bundle would index (same passages' ids,
+// titles, headings and texts in the same order, same ranking settings) and
+// every copied byte matches the prior manifest. It reports whether it did;
+// on false indexDir does not exist and the index must be built. A build in
+// which only dates or line numbers moved, or nothing changed, then skips
+// the most expensive stage.
+func reuseIndex(prior *Prior, indexDir, content string) bool {
+	if prior == nil || prior.Dir == "" || prior.Manifest == nil {
+		return false
+	}
+	var st indexStats
+	data, err := os.ReadFile(filepath.Join(prior.Dir, filepath.FromSlash(StatsFile)))
+	if err != nil || json.Unmarshal(data, &st) != nil || st.Content != content {
+		return false
+	}
+	src := filepath.Join(prior.Dir, filepath.FromSlash(IndexDir))
+	err = filepath.WalkDir(src, func(p string, d fs.DirEntry, err error) error {
+		if err != nil {
+			return err
+		}
+		rel, err := filepath.Rel(src, p)
+		if err != nil {
+			return err
+		}
+		target := filepath.Join(indexDir, rel)
+		if d.IsDir() {
+			return os.MkdirAll(target, 0o755)
+		}
+		want, ok := prior.Manifest.Files[IndexDir+"/"+filepath.ToSlash(rel)]
+		if !ok {
+			return fmt.Errorf("%s is not in the prior manifest", rel)
+		}
+		got, err := copyHashed(p, target)
+		if err != nil {
+			return err
+		}
+		if got != want {
+			return fmt.Errorf("%s does not match the prior manifest", rel)
+		}
+		return nil
+	})
+	if err != nil {
+		os.RemoveAll(indexDir)
+		return false
+	}
+	return true
+}
+
+// copyHashed copies the file src to dst and returns "sha256:" and the hex
+// SHA-256 of the bytes copied.
+func copyHashed(src, dst string) (string, error) {
+	in, err := os.Open(src)
+	if err != nil {
+		return "", err
+	}
+	defer in.Close()
+	out, err := os.OpenFile(dst, os.O_WRONLY|os.O_CREATE|os.O_EXCL, 0o644)
+	if err != nil {
+		return "", err
+	}
+	h := sha256.New()
+	if _, err := io.Copy(io.MultiWriter(out, h), in); err != nil {
+		out.Close()
+		return "", err
+	}
+	if err := out.Close(); err != nil {
+		return "", err
+	}
+	return "sha256:" + hex.EncodeToString(h.Sum(nil)), nil
 }
