@@ -2,6 +2,8 @@ package build
 
 import (
 	"context"
+	"crypto/sha256"
+	"encoding/hex"
 	"errors"
 	"fmt"
 	"io/fs"
@@ -37,6 +39,10 @@ type Options struct {
 	GitDir string
 	// Dedupe configures the duplicate stage.
 	Dedupe dedupe.Options
+	// Cache, when set, holds the per-document results of earlier builds:
+	// Run reuses the entries whose content is unchanged and updates the
+	// rest. It must fit the settings (Cache.Fits).
+	Cache *Cache
 }
 
 // DefaultOptions returns options with DefaultSettings and the default walk.
@@ -59,6 +65,7 @@ type Stats struct {
 	Duplicates         int   `json:"duplicates"`          // copies left out, listed on their canonical passage
 	Divergent          int   `json:"divergent"`           // near copies that differ in numbers, dates or units
 	Stale              int   `json:"stale"`               // documents stale or expired
+	Reused             int   `json:"reused"`              // documents taken from the build cache, not parsed
 }
 
 // Result is everything one build produced, sorted so that the same input
@@ -122,6 +129,7 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 	// Stage 1: read, parse and normalise each document.
 	docs := make([]*sources.Document, len(files))
 	fails := make([]*sources.Error, len(files))
+	reused := make([]bool, len(files))
 	var done atomic.Int64
 	g, gctx := errgroup.WithContext(ctx)
 	g.SetLimit(workers)
@@ -130,7 +138,7 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 			if err := gctx.Err(); err != nil {
 				return err
 			}
-			docs[i], fails[i] = readDocument(fsys, f, opts.Walk.MaxSize)
+			docs[i], reused[i], fails[i] = readDocument(fsys, f, opts.Walk.MaxSize, opts.Cache)
 			if opts.Progress != nil {
 				opts.Progress(int(done.Add(1)), len(files))
 			}
@@ -141,7 +149,12 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 		return nil, err
 	}
 	kept := docs[:0]
+	present := make(map[string]bool, len(files))
 	for i, d := range docs {
+		present[files[i].Path] = true
+		if reused[i] {
+			res.Stats.Reused++
+		}
 		if fails[i] != nil {
 			res.Problems = append(res.Problems, fails[i])
 			res.Stats.Skipped++
@@ -156,6 +169,8 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 	}
 	docs = kept
 	res.Stats.Skipped += len(walkErrs)
+
+	opts.Cache.keep(present)
 
 	// Stage 2: date every document.
 	gr := <-gitc
@@ -193,7 +208,16 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 			}
 			var clean *sources.Document
 			clean, dropped[i] = bp.Strip(d)
-			parts[i] = Split(clean, tok, s)
+			var digest string
+			ok := false
+			if opts.Cache != nil {
+				digest = boilerDigest(BlockKeys(d), bp)
+				parts[i], ok = opts.Cache.passages(d.Path, digest)
+			}
+			if !ok {
+				parts[i] = Split(clean, tok, s)
+				opts.Cache.storePassages(d.Path, digest, parts[i])
+			}
 			for j := range parts[i] {
 				stamp(&parts[i][j], infos[i])
 			}
@@ -239,27 +263,39 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 	return res, nil
 }
 
-// readDocument reads, parses and normalises one file. A nil document comes
-// with the error that kept it out.
-func readDocument(fsys fs.FS, f sources.File, maxSize int64) (*sources.Document, *sources.Error) {
+// readDocument reads, parses and normalises one file, or takes it from
+// the cache when its bytes are unchanged (reported by reused). A nil
+// document comes with the error that kept it out.
+func readDocument(fsys fs.FS, f sources.File, maxSize int64, cache *Cache) (doc *sources.Document, reused bool, _ *sources.Error) {
 	data, rerr := sources.ReadFile(fsys, f, maxSize)
 	if rerr != nil {
-		return nil, rerr
+		return nil, false, rerr
+	}
+	var hash string
+	if cache != nil {
+		sum := sha256.Sum256(data)
+		hash = hex.EncodeToString(sum[:])
+		if e := cache.lookup(f.Path, hash); e != nil {
+			if d, ok := e.document(f); ok {
+				return d, true, nil
+			}
+		}
 	}
 	doc, err := sources.Parse(f.Path, data)
 	if err != nil {
 		if pe, ok := err.(*sources.Error); ok {
-			return nil, pe
+			return nil, false, pe
 		}
-		return nil, &sources.Error{Path: f.Path, Msg: err.Error(), Err: err}
+		return nil, false, &sources.Error{Path: f.Path, Msg: err.Error(), Err: err}
 	}
 	doc.ModTime = f.ModTime.UTC()
 	hadText := len(doc.Blocks) > 0
 	Normalize(doc)
 	if hadText && len(doc.Blocks) == 0 {
-		return nil, sources.ErrNoText(f.Path)
+		return nil, false, sources.ErrNoText(f.Path)
 	}
-	return doc, nil
+	cache.store(f.Path, hash, doc)
+	return doc, false, nil
 }
 
 // stamp copies a document's freshness onto one of its passages.

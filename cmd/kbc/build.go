@@ -133,7 +133,9 @@ func (g gates) check(st *build.StalenessReport, divergent int, stderr io.Writer)
 // compile checks src and runs the pipeline over it, printing each bad
 // input file as one line on stderr. It returns the exit code to stop with,
 // or -1 to go on.
-func compile(ctx context.Context, fs *flag.FlagSet, sf *sourceFlags, src string, now time.Time, stderr io.Writer) (*build.Result, build.Options, gates, int) {
+// With out set, compile uses and updates the build cache kept beside that
+// bundle folder (saved by writeBundle).
+func compile(ctx context.Context, fs *flag.FlagSet, sf *sourceFlags, src, out string, now time.Time, stderr io.Writer) (*build.Result, build.Options, gates, int) {
 	if st, err := os.Stat(src); err != nil || !st.IsDir() {
 		if err == nil {
 			err = errors.New("not a folder")
@@ -152,6 +154,9 @@ func compile(ctx context.Context, fs *flag.FlagSet, sf *sourceFlags, src string,
 	}
 	opts.Now = now
 	opts.GitDir = src
+	if out != "" {
+		opts.Cache = loadCache(out, opts.Settings, stderr)
+	}
 	bar := newProgress(stderr)
 	opts.Progress = bar.update
 	res, err := build.Run(ctx, os.DirFS(src), opts)
@@ -161,6 +166,23 @@ func compile(ctx context.Context, fs *flag.FlagSet, sf *sourceFlags, src string,
 		return nil, opts, g, exitFailure
 	}
 	return res, opts, g, -1
+}
+
+// loadCache reads the build cache of the bundle folder out. A cache that
+// cannot be read, or was made by another kbc version or other settings,
+// is reported once and replaced by an empty one: it is never trusted.
+func loadCache(out string, s build.Settings, stderr io.Writer) *build.Cache {
+	tool := "kbc " + version
+	c, err := bundle.ReadCache(out)
+	switch {
+	case err != nil:
+		fmt.Fprintf(stderr, "kbc: build cache unreadable (%v); rebuilding it\n", err)
+	case c != nil && !c.Fits(tool, s):
+		fmt.Fprintf(stderr, "kbc: build cache %s was made by another kbc version or other settings; rebuilding it\n", bundle.CacheDir(out))
+	case c != nil:
+		return c
+	}
+	return build.NewCache(tool, s)
 }
 
 // interrupted returns a context cancelled by Ctrl-C or SIGTERM.
@@ -208,6 +230,11 @@ func writeBundle(out, src string, res *build.Result, opts build.Options, builtAt
 	if err != nil {
 		return nil, nil, err
 	}
+	if opts.Cache != nil && opts.Cache.Changed() {
+		if err := bundle.WriteCache(out, opts.Cache); err != nil {
+			fmt.Fprintf(stderr, "kbc: could not save the build cache: %v\n", err)
+		}
+	}
 	var delta bundle.Delta
 	data, err := os.ReadFile(filepath.Join(out, bundle.DeltaFile))
 	if err == nil {
@@ -249,12 +276,12 @@ func runBuild(args []string, stdout, stderr io.Writer) int {
 	// Never read our own output when OUT lies inside SRC.
 	if rel, err := filepath.Rel(src, *out); err == nil && rel != "." && !strings.HasPrefix(rel, "..") {
 		rel = filepath.ToSlash(rel)
-		sf.exclude = append(sf.exclude, rel, "."+filepath.Base(rel)+".tmp-*")
+		sf.exclude = append(sf.exclude, rel, rel+".cache", "."+filepath.Base(rel)+".tmp-*")
 	}
 	start := time.Now()
 	ctx, stop := interrupted()
 	defer stop()
-	res, opts, g, code := compile(ctx, fs, sf, src, builtAt, stderr)
+	res, opts, g, code := compile(ctx, fs, sf, src, *out, builtAt, stderr)
 	if code >= 0 {
 		return code
 	}
@@ -328,6 +355,9 @@ func (s summary) print(w io.Writer) {
 	st := s.Stats
 	fmt.Fprintf(w, "built %s -> %s\n", s.Source, s.Out)
 	fmt.Fprintf(w, "  documents    %d read, %d skipped (%s)", st.Documents, st.Skipped, sizeString(st.SourceBytes))
+	if st.Reused > 0 {
+		fmt.Fprintf(w, "; %d unchanged, taken from the cache", st.Reused)
+	}
 	if st.Empty > 0 {
 		fmt.Fprintf(w, "; %d with front matter only", st.Empty)
 	}

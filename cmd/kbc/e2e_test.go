@@ -327,3 +327,59 @@ func TestCorpora(t *testing.T) {
 		})
 	}
 }
+
+// TestIncrementalEqualsClean: a rebuild that takes unchanged documents from
+// the build cache gives the same bundle id as a clean build of the same
+// tree, after an edit, a new page, a removed page and a settings change;
+// a corrupt cache is reported and rebuilt.
+func TestIncrementalEqualsClean(t *testing.T) {
+	src := copyTree(t, "../../examples/handbook", time.Date(2026, 11, 20, 9, 0, 0, 0, time.UTC))
+	t.Setenv("SOURCE_DATE_EPOCH", "1796083200")
+	out := filepath.Join(t.TempDir(), "b")
+	check := func(step string, extra ...string) {
+		t.Helper()
+		stdout, _ := mustBuild(t, src, out, extra...)
+		clean := filepath.Join(t.TempDir(), "clean")
+		mustBuild(t, src, clean, extra...)
+		a, err := bundle.ReadManifest(out)
+		if err != nil {
+			t.Fatal(err)
+		}
+		b, err := bundle.ReadManifest(clean)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if a.BundleID != b.BundleID {
+			t.Errorf("%s: incremental bundle %s, clean build %s", step, a.BundleID, b.BundleID)
+		}
+		if bad, err := bundle.Verify(out); err != nil || len(bad) > 0 {
+			t.Errorf("%s: verify: %v %v", step, bad, err)
+		}
+		t.Logf("%s: %s", step, strings.SplitN(strings.TrimSpace(stdout), "\n", 3)[1])
+	}
+	check("first build")
+	check("no change")
+	page := filepath.Join(src, "fleet", "reefer-door-seals.md")
+	data := mustRead(t, page)
+	if err := os.WriteFile(page, append(data, "\nA late note: seals on trailers older than ten years are checked every 20 days.\n"...), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	check("one page edited")
+	if err := os.WriteFile(filepath.Join(src, "fleet", "new.md"), []byte("# Tail lifts\n\nTail lifts are inspected every six months under the lifting equipment rules, by the workshop.\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	check("page added")
+	if err := os.Remove(filepath.Join(src, "onboarding", "glossary.md")); err != nil {
+		t.Fatal(err)
+	}
+	check("page removed")
+	check("settings changed", "--aim-tokens", "200")
+	if err := os.WriteFile(filepath.Join(bundle.CacheDir(out), "documents.gob"), []byte("not a cache"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	var o, e bytes.Buffer
+	if code := run([]string{"build", src, "-o", out}, &o, &e); code != exitOK || !strings.Contains(e.String(), "build cache unreadable") {
+		t.Errorf("corrupt cache: exit %d, stderr %q", code, e.String())
+	}
+	check("after a corrupt cache")
+}

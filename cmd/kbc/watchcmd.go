@@ -48,8 +48,10 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 	ignore := func(string, bool) bool { return false }
 	if rel, err := filepath.Rel(src, *out); err == nil && rel != "." && !strings.HasPrefix(rel, "..") {
 		rel = filepath.ToSlash(rel)
-		sf.exclude = append(sf.exclude, rel, "."+filepath.Base(rel)+".tmp-*")
-		ignore = func(p string, _ bool) bool { return p == rel || strings.HasPrefix(p, rel+"/") }
+		sf.exclude = append(sf.exclude, rel, rel+".cache", "."+filepath.Base(rel)+".tmp-*")
+		ignore = func(p string, _ bool) bool {
+			return p == rel || p == rel+".cache" || strings.HasPrefix(p, rel+"/") || strings.HasPrefix(p, rel+".cache/")
+		}
 	}
 	// The watcher starts before the first build, so edits made during it
 	// arrive as the first change.
@@ -73,7 +75,7 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 			fmt.Fprintf(stderr, "kbc watch: %v\n", err)
 			return
 		}
-		res, opts, _, code := compile(ctx, fs, sf, src, now, stderr)
+		res, opts, _, code := compile(ctx, fs, sf, src, *out, now, stderr)
 		if code >= 0 {
 			return // compile said why; the last good bundle stays
 		}

@@ -1,0 +1,182 @@
+package build
+
+import (
+	"crypto/sha256"
+	"encoding/binary"
+	"encoding/hex"
+	"encoding/json"
+	"sort"
+	"sync"
+
+	"github.com/kbc-project/kbc/sources"
+)
+
+// CacheFormat is the version of the Cache layout; a cache of another
+// format is discarded.
+const CacheFormat = 1
+
+// Cache holds the per-document results of earlier builds, so that a
+// rebuild re-reads only what changed: a file whose content hash matches
+// its entry is not parsed again, and its passages are not split again
+// while the boilerplate found on it is the same. A Cache is valid only
+// for the tool version and settings it was made with (Key); Run discards
+// the entries of one made with others. Run may use a Cache from several
+// goroutines; callers must not use it during a Run.
+type Cache struct {
+	Format  int
+	Key     string // tool version and settings digest
+	Entries map[string]*CacheEntry
+
+	mu      sync.Mutex
+	changed bool
+}
+
+// CacheEntry is what one build learned about one file.
+type CacheEntry struct {
+	Hash      string            // SHA-256 of the file's bytes
+	Doc       *sources.Document // normalised; Front travels in FrontJSON
+	FrontJSON []byte            // the document's front matter as JSON
+	Keys      []BlockKey        // BlockKeys(Doc)
+	Boiler    string            // digest of the Keys that were boilerplate when Passages were made
+	Passages  []Passage         // Split's result, before dates are stamped
+}
+
+// NewCache returns an empty cache for the given tool version and settings.
+func NewCache(tool string, s Settings) *Cache {
+	return &Cache{Format: CacheFormat, Key: cacheKey(tool, s), Entries: map[string]*CacheEntry{}}
+}
+
+func cacheKey(tool string, s Settings) string {
+	data, _ := json.Marshal(s)
+	h := sha256.Sum256(append([]byte(tool+"\x00"), data...))
+	return hex.EncodeToString(h[:])
+}
+
+// Fits reports whether c was made by this tool version with these
+// settings, so its entries can be trusted.
+func (c *Cache) Fits(tool string, s Settings) bool {
+	return c != nil && c.Format == CacheFormat && c.Key == cacheKey(tool, s) && c.Entries != nil
+}
+
+// Changed reports whether the last Run added, replaced or dropped an
+// entry, that is whether the cache needs writing back.
+func (c *Cache) Changed() bool {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	return c.changed
+}
+
+// lookup returns the entry for path when its content hash is hash.
+func (c *Cache) lookup(path, hash string) *CacheEntry {
+	if c == nil {
+		return nil
+	}
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	e := c.Entries[path]
+	if e == nil || e.Hash != hash || e.Doc == nil {
+		return nil
+	}
+	return e
+}
+
+// document returns a fresh copy of the entry's document, with its front
+// matter decoded and the file time of this build.
+func (e *CacheEntry) document(f sources.File) (*sources.Document, bool) {
+	d := *e.Doc
+	d.Front = nil
+	if len(e.FrontJSON) > 0 && json.Unmarshal(e.FrontJSON, &d.Front) != nil {
+		return nil, false
+	}
+	d.ModTime = f.ModTime.UTC()
+	return &d, true
+}
+
+// store records what a build made of path.
+func (c *Cache) store(path, hash string, d *sources.Document) {
+	if c == nil {
+		return
+	}
+	e := &CacheEntry{Hash: hash, Keys: BlockKeys(d)}
+	doc := *d
+	if len(doc.Front) > 0 {
+		e.FrontJSON, _ = json.Marshal(doc.Front)
+	}
+	doc.Front = nil
+	// The causes behind warnings are not kept: only their text is needed
+	// again, and an arbitrary error value cannot be encoded.
+	if len(doc.Warnings) > 0 {
+		ws := make([]*sources.Error, len(doc.Warnings))
+		for i, w := range doc.Warnings {
+			c := *w
+			c.Err = nil
+			ws[i] = &c
+		}
+		doc.Warnings = ws
+	}
+	e.Doc = &doc
+	c.mu.Lock()
+	c.Entries[path] = e
+	c.changed = true
+	c.mu.Unlock()
+}
+
+// passages returns the cached split of path when the boilerplate on it is
+// the same as when it was made.
+func (c *Cache) passages(path, boiler string) ([]Passage, bool) {
+	if c == nil {
+		return nil, false
+	}
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	e := c.Entries[path]
+	if e == nil || e.Passages == nil || e.Boiler != boiler {
+		return nil, false
+	}
+	return append([]Passage(nil), e.Passages...), true
+}
+
+func (c *Cache) storePassages(path, boiler string, ps []Passage) {
+	if c == nil {
+		return
+	}
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	if e := c.Entries[path]; e != nil {
+		e.Boiler, e.Passages = boiler, append([]Passage{}, ps...)
+		c.changed = true
+	}
+}
+
+// keep drops the entries of files that are gone.
+func (c *Cache) keep(paths map[string]bool) {
+	if c == nil {
+		return
+	}
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	for p := range c.Entries {
+		if !paths[p] {
+			delete(c.Entries, p)
+			c.changed = true
+		}
+	}
+}
+
+// boilerDigest names which of a document's block keys are boilerplate.
+func boilerDigest(keys []BlockKey, b *Boilerplate) string {
+	var on []BlockKey
+	for _, k := range keys {
+		if b.Has(k) {
+			on = append(on, k)
+		}
+	}
+	sort.Slice(on, func(i, j int) bool { return on[i] < on[j] })
+	h := sha256.New()
+	var buf [8]byte
+	for _, k := range on {
+		binary.LittleEndian.PutUint64(buf[:], uint64(k))
+		h.Write(buf[:])
+	}
+	return hex.EncodeToString(h.Sum(nil)[:16])
+}
