@@ -2,6 +2,8 @@ package bundle
 
 import (
 	"bufio"
+	"crypto/sha256"
+	"encoding/hex"
 	"encoding/json"
 	"errors"
 	"fmt"
@@ -16,7 +18,8 @@ import (
 // DeltaFile is the name of the delta inside a bundle.
 const DeltaFile = "delta.json"
 
-// Change is one passage whose text changed between two bundles.
+// Change is one passage whose content changed between two bundles; the
+// hashes are ContentHash values.
 type Change struct {
 	ID      string `json:"id"`
 	OldHash string `json:"old_hash"`
@@ -25,8 +28,9 @@ type Change struct {
 
 // Delta is what changed between two bundles, passage by passage: what a
 // vector store downstream must embed again (added and changed) or forget
-// (removed). A passage whose text is the same but whose metadata moved
-// (lines, dates) is not a change: its embedding stays valid.
+// (removed). A passage changes when its text, title or heading trail
+// changes (what an embedding is usually made from); one whose lines or
+// dates merely moved is not a change.
 type Delta struct {
 	From    string   `json:"from,omitempty"` // bundle id of the older bundle; empty for the first build
 	To      string   `json:"to"`             // bundle id of the newer bundle
@@ -40,23 +44,37 @@ func (d *Delta) Empty() bool {
 	return len(d.Added) == 0 && len(d.Changed) == 0 && len(d.Removed) == 0
 }
 
-// Diff compares the passages of two bundles by id and text hash. The
+// ContentHash is the SHA-256 (hex) of a passage's title, heading trail and
+// text: what the delta compares.
+func ContentHash(p *build.Passage) string {
+	h := sha256.New()
+	fmt.Fprintf(h, "%d:%s%d:", len(p.Title), p.Title, len(p.Heading))
+	for _, s := range p.Heading {
+		fmt.Fprintf(h, "%d:%s", len(s), s)
+	}
+	fmt.Fprintf(h, "%d:%s", len(p.Text), p.Text)
+	return hex.EncodeToString(h.Sum(nil))
+}
+
+// Diff compares the passages of two bundles by id and ContentHash. The
 // result is sorted by id.
 func Diff(old, cur []build.Passage) *Delta {
 	d := &Delta{Added: []string{}, Changed: []Change{}, Removed: []string{}}
 	before := make(map[string]string, len(old))
-	for _, p := range old {
-		before[p.ID] = p.Hash
+	for i := range old {
+		before[old[i].ID] = ContentHash(&old[i])
 	}
 	seen := make(map[string]bool, len(cur))
-	for _, p := range cur {
+	for i := range cur {
+		p := &cur[i]
 		seen[p.ID] = true
 		h, ok := before[p.ID]
-		switch {
-		case !ok:
+		if !ok {
 			d.Added = append(d.Added, p.ID)
-		case h != p.Hash:
-			d.Changed = append(d.Changed, Change{ID: p.ID, OldHash: h, NewHash: p.Hash})
+			continue
+		}
+		if nh := ContentHash(p); h != nh {
+			d.Changed = append(d.Changed, Change{ID: p.ID, OldHash: h, NewHash: nh})
 		}
 	}
 	for _, p := range old {

@@ -9,10 +9,13 @@ import (
 )
 
 func TestDiff(t *testing.T) {
-	old := []build.Passage{{ID: "a", Hash: "1"}, {ID: "b", Hash: "2"}, {ID: "c", Hash: "3"}}
-	cur := []build.Passage{{ID: "a", Hash: "1", Line: 40}, {ID: "c", Hash: "9"}, {ID: "d", Hash: "4"}}
+	old := []build.Passage{{ID: "a", Text: "1"}, {ID: "b", Text: "2"}, {ID: "c", Text: "3"}, {ID: "e", Text: "5", Heading: []string{"Old"}}}
+	cur := []build.Passage{{ID: "a", Text: "1", Line: 40}, {ID: "c", Text: "9"}, {ID: "d", Text: "4"}, {ID: "e", Text: "5", Heading: []string{"New"}}}
 	got := Diff(old, cur)
-	want := &Delta{Added: []string{"d"}, Changed: []Change{{ID: "c", OldHash: "3", NewHash: "9"}}, Removed: []string{"b"}}
+	want := &Delta{Added: []string{"d"}, Changed: []Change{
+		{ID: "c", OldHash: ContentHash(&old[2]), NewHash: ContentHash(&cur[1])},
+		{ID: "e", OldHash: ContentHash(&old[3]), NewHash: ContentHash(&cur[3])},
+	}, Removed: []string{"b"}}
 	if !reflect.DeepEqual(got, want) {
 		t.Errorf("Diff = %+v, want %+v", got, want)
 	}
