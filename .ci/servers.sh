@@ -40,6 +40,8 @@ kbc_servers_install() {
   fi
   export KBC_TEST_VERSITYGW="$bin"
   export KBC_TEST_REGISTRY="$(command -v docker-registry)"
+  # Debian's chromium, for the live preview's headless browser test (bundle/preview).
+  command -v chromium >/dev/null || { [[ -n "${KBC_APT_UPDATED:-}" ]] || apt-get update -qq; KBC_APT_UPDATED=1; DEBIAN_FRONTEND=noninteractive apt-get install -y -qq chromium >/dev/null; }
 }
 
 # kbc_free_port prints a TCP port on 127.0.0.1 that nothing listens on.

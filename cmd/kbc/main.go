@@ -4,7 +4,7 @@
 // Usage:
 //
 //	kbc build SRC -o OUT [--strict] [--include GLOB] [--exclude GLOB]
-//	kbc watch SRC -o OUT [--debounce 150ms]
+//	kbc watch SRC -o OUT [--debounce 150ms] [--serve 127.0.0.1:PORT]
 //	kbc query OUT "question" [-k 10] [--json]
 //	kbc stale SRC|OUT [--json] [--max-stale N|N%] [--fail-on-divergent]
 //	kbc diff A B [--json]

@@ -2,14 +2,18 @@ package main
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"io"
+	"net"
+	"net/http"
 	"os"
 	"path/filepath"
 	"strings"
 	"time"
 
 	"github.com/kbc-project/kbc/build"
+	"github.com/kbc-project/kbc/bundle/preview"
 	"github.com/kbc-project/kbc/watch"
 )
 
@@ -32,6 +36,8 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 	out := fs.String("o", "", "bundle folder to write (required)")
 	fs.StringVar(out, "out", "", "same as -o")
 	debounce := fs.Duration("debounce", watch.DefaultDebounce, "quiet period after the last change before a rebuild")
+	serve := fs.String("serve", "", "serve a live preview page on ADDR (host:port, loopback only unless --serve-any)")
+	serveAny := fs.Bool("serve-any", false, "allow --serve on an address other than loopback")
 	sf := addSourceFlags(fs)
 	pos, code := parseArgs(fs, args, stdout)
 	if code >= 0 {
@@ -44,6 +50,19 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 		return badUsage(fs, stderr, "missing -o OUT")
 	}
 	src := pos[0]
+	var ln net.Listener
+	if *serve != "" {
+		if err := checkServeAddr(*serve, *serveAny); err != nil {
+			return badUsage(fs, stderr, "--serve %s: %v", *serve, err)
+		}
+		l, err := net.Listen("tcp", *serve)
+		if err != nil {
+			fmt.Fprintf(stderr, "kbc watch: %v\n", err)
+			return exitFailure
+		}
+		ln = l
+		defer ln.Close()
+	}
 	// Never read our own output (or its temporary siblings) as a source.
 	ignore := func(string, bool) bool { return false }
 	if rel, err := filepath.Rel(src, *out); err == nil && rel != "." && !strings.HasPrefix(rel, "..") {
@@ -67,6 +86,7 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 	defer w.Close()
 
 	var last *build.Result
+	var pv *preview.Server // the live preview, when serving
 	seen := map[string]bool{}
 	rebuild := func(ctx context.Context) {
 		start := time.Now()
@@ -104,8 +124,32 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 		}
 		fmt.Fprintln(stdout, line)
 		last = res
+		if pv != nil {
+			if err := pv.Reload(*out); err != nil {
+				fmt.Fprintf(stderr, "kbc watch: preview: %v\n", err)
+			}
+		}
 	}
 	rebuild(ctx)
+	if ln != nil {
+		if pv, err = preview.New(*out); err != nil {
+			fmt.Fprintf(stderr, "kbc watch: %v\n", err)
+			return exitFailure
+		}
+		hs := &http.Server{Handler: pv.Handler(), ReadHeaderTimeout: 10 * time.Second}
+		go func() {
+			if err := hs.Serve(ln); !errors.Is(err, http.ErrServerClosed) {
+				fmt.Fprintf(stderr, "kbc watch: preview: %v\n", err)
+			}
+		}()
+		defer func() {
+			pv.Close() // ends the pages' event streams, so Shutdown need not wait for them
+			sctx, cancel := context.WithTimeout(context.Background(), time.Second)
+			defer cancel()
+			hs.Shutdown(sctx)
+		}()
+		fmt.Fprintf(stdout, "preview on http://%s/\n", ln.Addr())
+	}
 	fmt.Fprintf(stdout, "watching %s (Ctrl-C to stop)\n", src)
 	err = w.Run(ctx, func(ctx context.Context, c watch.Change) error {
 		rebuild(ctx)
@@ -117,4 +161,17 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 	}
 	fmt.Fprintf(stdout, "stopped; the last complete bundle is in %s\n", *out)
 	return exitOK
+}
+
+// checkServeAddr checks that addr (host:port) is a loopback address, unless
+// anyHost allows every address.
+func checkServeAddr(addr string, anyHost bool) error {
+	host, _, err := net.SplitHostPort(addr)
+	if err != nil || anyHost {
+		return err
+	}
+	if ip := net.ParseIP(host); host != "localhost" && (ip == nil || !ip.IsLoopback()) {
+		return errors.New("not a loopback address (use 127.0.0.1:PORT, or add --serve-any to serve other hosts)")
+	}
+	return nil
 }

@@ -1,0 +1,363 @@
+package preview
+
+import (
+	"bytes"
+	"crypto/sha256"
+	_ "embed"
+	"encoding/base64"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"html/template"
+	"io"
+	"net"
+	"net/http"
+	"strconv"
+	"strings"
+	"sync"
+	"time"
+
+	"github.com/kbc-project/kbc/build/fresh"
+	"github.com/kbc-project/kbc/bundle"
+)
+
+// ErrClosed is returned by Reload after Close.
+var ErrClosed = errors.New("preview: server closed")
+
+// Defaults of a Server.
+const (
+	// DefaultResults is how many passages a query shows unless ?k= asks
+	// for another number (at most MaxResults).
+	DefaultResults = 10
+	// MaxResults bounds ?k=.
+	MaxResults = 50
+	// heartbeat is how often an idle event stream gets a comment line, so
+	// that a client gone without closing its connection is noticed. A
+	// proxy commonly drops a connection idle for a minute (common
+	// practice, no source).
+	heartbeat = 25 * time.Second
+	// snippetLines and snippetBytes bound the text shown for one result.
+	snippetLines = 6
+	snippetBytes = 600
+)
+
+//go:embed page.html.tmpl
+var pageTemplate string
+
+//go:embed page.css
+var pageCSS string
+
+//go:embed page.js
+var pageJS string
+
+// Server serves the preview page of one bundle at a time. Make one with
+// New. Its methods and its handler are safe for concurrent use; after Close
+// the handler answers 503 and Reload fails with ErrClosed.
+type Server struct {
+	tmpl *template.Template
+	csp  string
+	now  func() time.Time // the clock freshness is judged by
+
+	mu  sync.RWMutex
+	cur *handle // nil after Close
+
+	subsMu sync.Mutex
+	subs   map[chan string]struct{}
+
+	done      chan struct{} // closed by Close: event streams end
+	closeOnce sync.Once
+}
+
+// handle is one open bundle and the searches using it.
+type handle struct {
+	b       *bundle.Bundle
+	dir     string
+	dueSoon fresh.Duration
+	users   sync.WaitGroup
+}
+
+// New opens the bundle in dir (see bundle.Open) and returns a Server for
+// it. Close the Server when done.
+func New(dir string) (*Server, error) {
+	h, err := openHandle(dir)
+	if err != nil {
+		return nil, err
+	}
+	tmpl, err := template.New("preview").Funcs(template.FuncMap{"join": strings.Join}).Parse(pageTemplate)
+	if err != nil {
+		h.b.Close()
+		return nil, fmt.Errorf("preview: page template: %w", err)
+	}
+	s := &Server{
+		tmpl: tmpl,
+		now:  time.Now,
+		cur:  h,
+		subs: make(map[chan string]struct{}),
+		done: make(chan struct{}),
+		// CSP level 2 hash sources (W3C Content Security Policy Level 2,
+		// section 4.2.5): only the inline style and script whose SHA-256
+		// is named here may run, nothing may be loaded from elsewhere.
+		csp: "default-src 'none'; style-src '" + hashSource(pageCSS) + "'; script-src '" + hashSource(pageJS) +
+			"'; connect-src 'self'; form-action 'self'; base-uri 'none'; frame-ancestors 'none'",
+	}
+	return s, nil
+}
+
+func hashSource(s string) string {
+	sum := sha256.Sum256([]byte(s))
+	return "sha256-" + base64.StdEncoding.EncodeToString(sum[:])
+}
+
+// openHandle opens the bundle in dir and reads the due-soon window it was
+// built with.
+func openHandle(dir string) (*handle, error) {
+	b, err := bundle.Open(dir)
+	if err != nil {
+		return nil, fmt.Errorf("preview: opening bundle: %w", err)
+	}
+	return &handle{b: b, dir: dir, dueSoon: dueSoonOf(b.Manifest())}, nil
+}
+
+// dueSoonOf returns the due-soon window recorded in the manifest's
+// settings (as kbc writes them: {"freshness":{"due_soon":"30d"}}), or the
+// default policy's when there is none.
+func dueSoonOf(m *bundle.Manifest) fresh.Duration {
+	d := fresh.DefaultPolicy().DueSoon
+	var s struct {
+		Freshness struct {
+			DueSoon fresh.Duration `json:"due_soon"`
+		} `json:"freshness"`
+	}
+	if len(m.Settings) > 0 && json.Unmarshal(m.Settings, &s) == nil && s.Freshness.DueSoon.Days > 0 {
+		d = s.Freshness.DueSoon
+	}
+	return d
+}
+
+// acquire returns the current bundle, counted as in use until release; nil
+// after Close.
+func (s *Server) acquire() *handle {
+	s.mu.RLock()
+	defer s.mu.RUnlock()
+	h := s.cur
+	if h != nil {
+		// Every Add on a handle happens under the read lock while it is
+		// current, so before the write lock that retires it, and so
+		// before retire's Wait, as sync.WaitGroup requires.
+		h.users.Add(1)
+	}
+	return h
+}
+
+// retire waits for the searches on h to finish, then closes its bundle.
+func (h *handle) retire() error {
+	h.users.Wait()
+	return h.b.Close()
+}
+
+// Reload opens the bundle in dir (normally the same folder, after a
+// rebuild put a new bundle there), makes it the one searched, closes the
+// old one once the searches using it have finished, and sends "reload" to
+// every open page. When the bundle cannot be opened Reload returns the
+// error and the old bundle stays.
+func (s *Server) Reload(dir string) error {
+	h, err := openHandle(dir)
+	if err != nil {
+		return err
+	}
+	s.mu.Lock()
+	old := s.cur
+	if old == nil {
+		s.mu.Unlock()
+		h.b.Close()
+		return ErrClosed
+	}
+	s.cur = h
+	s.mu.Unlock()
+	err = old.retire()
+	s.notify(h.b.Manifest().BundleID)
+	if err != nil {
+		return fmt.Errorf("preview: closing the previous bundle: %w", err)
+	}
+	return nil
+}
+
+// Close ends every event stream, waits for the searches in flight and
+// closes the bundle. Calling it again does nothing.
+func (s *Server) Close() error {
+	s.closeOnce.Do(func() { close(s.done) })
+	s.mu.Lock()
+	h := s.cur
+	s.cur = nil
+	s.mu.Unlock()
+	if h == nil {
+		return nil
+	}
+	return h.retire()
+}
+
+// notify queues a reload to bundle id for every subscriber. A subscriber
+// that has not taken the last one gets only the newest.
+func (s *Server) notify(id string) {
+	s.subsMu.Lock()
+	defer s.subsMu.Unlock()
+	for ch := range s.subs {
+		select {
+		case <-ch:
+		default:
+		}
+		ch <- id
+	}
+}
+
+func (s *Server) subscribe() chan string {
+	ch := make(chan string, 1)
+	s.subsMu.Lock()
+	s.subs[ch] = struct{}{}
+	s.subsMu.Unlock()
+	return ch
+}
+
+func (s *Server) unsubscribe(ch chan string) {
+	s.subsMu.Lock()
+	delete(s.subs, ch)
+	s.subsMu.Unlock()
+}
+
+// subscribers returns the number of open event streams.
+func (s *Server) subscribers() int {
+	s.subsMu.Lock()
+	defer s.subsMu.Unlock()
+	return len(s.subs)
+}
+
+// Handler returns the handler of the page, /results and /events.
+func (s *Server) Handler() http.Handler {
+	mux := http.NewServeMux()
+	mux.HandleFunc("GET /{$}", s.servePage)
+	mux.HandleFunc("GET /results", s.serveResults)
+	mux.HandleFunc("GET /events", s.serveEvents)
+	return localOnly(mux)
+}
+
+// localOnly refuses requests whose Host is a name other than localhost:
+// a page on another site that rebinds its own DNS name to 127.0.0.1 sends
+// that name, and would otherwise read the preview (the DNS rebinding
+// attack; Jackson et al., "Protecting Browsers from DNS Rebinding
+// Attacks", 2007). IP addresses are let through, for --serve-any.
+func localOnly(next http.Handler) http.Handler {
+	return http.HandlerFunc(func(w http.ResponseWriter, r *http.Request) {
+		host := r.Host
+		if h, _, err := net.SplitHostPort(host); err == nil {
+			host = h
+		}
+		host = strings.TrimSuffix(strings.ToLower(host), ".")
+		if net.ParseIP(strings.Trim(host, "[]")) == nil && host != "localhost" && !strings.HasSuffix(host, ".localhost") {
+			http.Error(w, "preview: refused: use an IP address or localhost in the address bar", http.StatusForbidden)
+			return
+		}
+		next.ServeHTTP(w, r)
+	})
+}
+
+func (s *Server) servePage(w http.ResponseWriter, r *http.Request) {
+	s.render(w, r, "page")
+}
+
+func (s *Server) serveResults(w http.ResponseWriter, r *http.Request) {
+	s.render(w, r, "results")
+}
+
+// render runs the search of r and executes the template name into a
+// buffer, holding the bundle only while it does.
+func (s *Server) render(w http.ResponseWriter, r *http.Request, name string) {
+	h := s.acquire()
+	if h == nil {
+		http.Error(w, "preview: server closed", http.StatusServiceUnavailable)
+		return
+	}
+	q := r.URL.Query()
+	k := DefaultResults
+	if v, err := strconv.Atoi(q.Get("k")); err == nil {
+		k = min(max(v, 1), MaxResults)
+	}
+	v := s.view(h, q.Get("q"), k)
+	var buf bytes.Buffer
+	err := s.tmpl.ExecuteTemplate(&buf, name, v)
+	h.users.Done()
+	if err != nil {
+		http.Error(w, "preview: rendering the page: "+err.Error(), http.StatusInternalServerError)
+		return
+	}
+	hd := w.Header()
+	hd.Set("Content-Type", "text/html; charset=utf-8")
+	hd.Set("Content-Security-Policy", s.csp)
+	hd.Set("X-Content-Type-Options", "nosniff")
+	hd.Set("Referrer-Policy", "no-referrer")
+	hd.Set("Cache-Control", "no-store")
+	if v.Error != "" {
+		w.WriteHeader(http.StatusInternalServerError)
+	}
+	w.Write(buf.Bytes())
+}
+
+// serveEvents streams Server-Sent Events (WHATWG HTML Living Standard,
+// section 9.2): an "id:" line with the bundle id and "event: reload" after
+// each rebuild. A client that names an older bundle, by ?bundle= on its
+// first connection or by the Last-Event-ID header the EventSource sends
+// when it reconnects, gets a reload at once, so a rebuild that happened
+// while it was not connected is not missed.
+func (s *Server) serveEvents(w http.ResponseWriter, r *http.Request) {
+	h := s.acquire()
+	if h == nil {
+		// Any status but 200 makes an EventSource stop reconnecting.
+		http.Error(w, "preview: server closed", http.StatusServiceUnavailable)
+		return
+	}
+	id := h.b.Manifest().BundleID
+	h.users.Done()
+	ch := s.subscribe()
+	defer s.unsubscribe(ch)
+
+	hd := w.Header()
+	hd.Set("Content-Type", "text/event-stream")
+	hd.Set("Cache-Control", "no-store")
+	hd.Set("X-Content-Type-Options", "nosniff")
+	rc := http.NewResponseController(w)
+	// The stream lives as long as the page: no write deadline.
+	rc.SetWriteDeadline(time.Time{})
+	seen := r.Header.Get("Last-Event-ID")
+	if seen == "" {
+		seen = r.URL.Query().Get("bundle")
+	}
+	msg := ": kbc preview\nretry: 1000\n\n"
+	if seen != "" && seen != id {
+		msg += event(id)
+	}
+	if _, err := io.WriteString(w, msg); err != nil || rc.Flush() != nil {
+		return
+	}
+	tick := time.NewTicker(heartbeat)
+	defer tick.Stop()
+	for {
+		select {
+		case <-r.Context().Done():
+			return
+		case <-s.done:
+			return
+		case id := <-ch:
+			msg = event(id)
+		case <-tick.C:
+			msg = ": ping\n\n"
+		}
+		if _, err := io.WriteString(w, msg); err != nil || rc.Flush() != nil {
+			return
+		}
+	}
+}
+
+// event is a reload event for bundle id. A bundle id is hex, so it cannot
+// break the line format.
+func event(id string) string {
+	return "id: " + id + "\nevent: reload\ndata: " + id + "\n\n"
+}
