@@ -152,15 +152,8 @@ func dedupePassages(ps []Passage, docs map[string]*sources.Document, opts dedupe
 	if err != nil {
 		return nil, nil, err
 	}
-	def := dedupe.DefaultOptions()
-	if opts.Threshold == 0 {
-		opts.Threshold = def.Threshold
-	}
-	if opts.Hashes == 0 {
-		opts.Hashes = def.Hashes
-	}
-	if opts.Shingle == 0 {
-		opts.Shingle = def.Shingle
+	if opts, err = opts.Resolved(); err != nil {
+		return nil, nil, err
 	}
 	rep := &DuplicateReport{
 		Threshold: opts.Threshold, Hashes: opts.Hashes, Shingle: opts.Shingle,

@@ -58,6 +58,10 @@ func DefaultOptions() Options {
 	}
 }
 
+// Resolved returns o with its zero fields filled from DefaultOptions, and
+// an error when a field is out of range: the options Find really uses.
+func (o Options) Resolved() (Options, error) { return o.withDefaults() }
+
 // withDefaults fills zero fields from DefaultOptions and checks the rest.
 func (o Options) withDefaults() (Options, error) {
 	d := DefaultOptions()

@@ -9,6 +9,7 @@ import (
 	"io"
 	"os"
 	"os/signal"
+	"path"
 	"path/filepath"
 	"strconv"
 	"strings"
@@ -57,6 +58,19 @@ func addSourceFlags(fs *flag.FlagSet) *sourceFlags {
 	fs.StringVar(&sf.maxStale, "max-stale", "", "gate: exit 3 when more than N documents (or N% of them) are stale or expired")
 	fs.BoolVar(&sf.failOnDivergent, "fail-on-divergent", false, "gate: exit 3 when copies of a passage differ in numbers, versions, dates or units")
 	return sf
+}
+
+// skipOutput keeps the bundle folder out, its cache and its temporary
+// siblings from being read as sources when out lies inside src. It
+// returns out's slash path relative to src, or "" when out is elsewhere.
+func (sf *sourceFlags) skipOutput(src, out string) string {
+	rel, err := filepath.Rel(src, out)
+	if err != nil || rel == "." || strings.HasPrefix(rel, "..") {
+		return ""
+	}
+	rel = filepath.ToSlash(rel)
+	sf.exclude = append(sf.exclude, rel, rel+".cache", "."+path.Base(rel)+".tmp-*")
+	return rel
 }
 
 // gates are the quality gates of one run.
@@ -273,11 +287,7 @@ func runBuild(args []string, stdout, stderr io.Writer) int {
 	if err != nil {
 		return badUsage(fs, stderr, "%v", err)
 	}
-	// Never read our own output when OUT lies inside SRC.
-	if rel, err := filepath.Rel(src, *out); err == nil && rel != "." && !strings.HasPrefix(rel, "..") {
-		rel = filepath.ToSlash(rel)
-		sf.exclude = append(sf.exclude, rel, rel+".cache", "."+filepath.Base(rel)+".tmp-*")
-	}
+	sf.skipOutput(src, *out)
 	start := time.Now()
 	ctx, stop := interrupted()
 	defer stop()

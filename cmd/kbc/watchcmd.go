@@ -8,7 +8,6 @@ import (
 	"net"
 	"net/http"
 	"os"
-	"path/filepath"
 	"strings"
 	"time"
 
@@ -63,11 +62,9 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 		ln = l
 		defer ln.Close()
 	}
-	// Never read our own output (or its temporary siblings) as a source.
+	// Never read our own output (or its cache and temporary siblings).
 	ignore := func(string, bool) bool { return false }
-	if rel, err := filepath.Rel(src, *out); err == nil && rel != "." && !strings.HasPrefix(rel, "..") {
-		rel = filepath.ToSlash(rel)
-		sf.exclude = append(sf.exclude, rel, rel+".cache", "."+filepath.Base(rel)+".tmp-*")
+	if rel := sf.skipOutput(src, *out); rel != "" {
 		ignore = func(p string, _ bool) bool {
 			return p == rel || p == rel+".cache" || strings.HasPrefix(p, rel+"/") || strings.HasPrefix(p, rel+".cache/")
 		}
