@@ -37,6 +37,7 @@ type CacheEntry struct {
 	Doc       *sources.Document // normalised; Front travels in FrontJSON
 	FrontJSON []byte            // the document's front matter as JSON
 	Keys      []BlockKey        // BlockKeys(Doc)
+	Fail      *sources.Error    // why the file was left out, instead of Doc
 	Boiler    string            // digest of the Keys that were boilerplate when Passages were made
 	Passages  []Passage         // Split's result, before dates are stamped
 }
@@ -74,7 +75,7 @@ func (c *Cache) lookup(path, hash string) *CacheEntry {
 	c.mu.Lock()
 	defer c.mu.Unlock()
 	e := c.Entries[path]
-	if e == nil || e.Hash != hash || e.Doc == nil {
+	if e == nil || e.Hash != hash || (e.Doc == nil && e.Fail == nil) {
 		return nil
 	}
 	return e
@@ -90,6 +91,20 @@ func (e *CacheEntry) document(f sources.File) (*sources.Document, bool) {
 	}
 	d.ModTime = f.ModTime.UTC()
 	return &d, true
+}
+
+// storeFail records that path, with these bytes, was left out and why, so
+// an unchanged bad file is not parsed again just to fail again.
+func (c *Cache) storeFail(path, hash string, fail *sources.Error) {
+	if c == nil || hash == "" {
+		return
+	}
+	f := *fail
+	f.Err = nil
+	c.mu.Lock()
+	c.Entries[path] = &CacheEntry{Hash: hash, Fail: &f}
+	c.changed = true
+	c.mu.Unlock()
 }
 
 // store records what a build made of path.

@@ -152,7 +152,7 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 	present := make(map[string]bool, len(files))
 	for i, d := range docs {
 		present[files[i].Path] = true
-		if reused[i] {
+		if reused[i] && fails[i] == nil {
 			res.Stats.Reused++
 		}
 		if fails[i] != nil {
@@ -276,6 +276,10 @@ func readDocument(fsys fs.FS, f sources.File, maxSize int64, cache *Cache) (doc 
 		sum := sha256.Sum256(data)
 		hash = hex.EncodeToString(sum[:])
 		if e := cache.lookup(f.Path, hash); e != nil {
+			if e.Fail != nil {
+				fail := *e.Fail
+				return nil, true, &fail
+			}
 			if d, ok := e.document(f); ok {
 				return d, true, nil
 			}
@@ -283,16 +287,20 @@ func readDocument(fsys fs.FS, f sources.File, maxSize int64, cache *Cache) (doc 
 	}
 	doc, err := sources.Parse(f.Path, data)
 	if err != nil {
-		if pe, ok := err.(*sources.Error); ok {
-			return nil, false, pe
+		pe, ok := err.(*sources.Error)
+		if !ok {
+			pe = &sources.Error{Path: f.Path, Msg: err.Error(), Err: err}
 		}
-		return nil, false, &sources.Error{Path: f.Path, Msg: err.Error(), Err: err}
+		cache.storeFail(f.Path, hash, pe)
+		return nil, false, pe
 	}
 	doc.ModTime = f.ModTime.UTC()
 	hadText := len(doc.Blocks) > 0
 	Normalize(doc)
 	if hadText && len(doc.Blocks) == 0 {
-		return nil, false, sources.ErrNoText(f.Path)
+		fail := sources.ErrNoText(f.Path)
+		cache.storeFail(f.Path, hash, fail)
+		return nil, false, fail
 	}
 	cache.store(f.Path, hash, doc)
 	return doc, false, nil

@@ -455,3 +455,121 @@ func indexContent(ps []build.Passage, order []int) string {
 	}
 	return hex.EncodeToString(h.Sum(nil))
 }
+
+// maxUpdateShare is the largest share of passages an in-place index update
+// touches; past it a fresh build is about as fast and gives the compact,
+// byte-reproducible layout. Judgement, no source.
+const maxUpdateShare = 0.2
+
+// updateIndex makes the new bundle's index from the prior bundle's: a copy
+// of its files (each checked against the prior manifest) in which the
+// passages whose indexed content changed, or that are gone, are deleted
+// and the new and changed ones added, through bleve's own batch update.
+// The statistics are adjusted by analysing only those passages. It fails,
+// and the caller builds the index afresh, when there is no usable prior
+// index or too much changed. The files differ from a fresh build's (more
+// segments, deletions); the passages, the bundle id and every score are
+// the same.
+func updateIndex(prior *Prior, indexDir string, ps []build.Passage, order []int) (*indexStats, error) {
+	if prior == nil || prior.Dir == "" || prior.Manifest == nil {
+		return nil, errors.New("no prior index")
+	}
+	var st indexStats
+	data, err := os.ReadFile(filepath.Join(prior.Dir, filepath.FromSlash(StatsFile)))
+	if err != nil {
+		return nil, err
+	}
+	if err := json.Unmarshal(data, &st); err != nil {
+		return nil, err
+	}
+	cur := newMapping()
+	if st.Analyzer != en.AnalyzerName || st.K1 != bm25K1 || st.B != bm25B ||
+		st.Boosts[fieldTitle] != boostTitle || st.Boosts[fieldHeading] != boostHeading || st.Boosts[fieldText] != boostText {
+		return nil, errors.New("prior index made with other ranking settings")
+	}
+	key := func(p *build.Passage) string { return indexContent([]build.Passage{*p}, []int{0}) }
+	before := make(map[string]string, len(prior.Passages))
+	for i := range prior.Passages {
+		before[prior.Passages[i].ID] = key(&prior.Passages[i])
+	}
+	var add []int // into ps: new or changed
+	after := make(map[string]string, len(order))
+	for _, i := range order {
+		k := key(&ps[i])
+		after[ps[i].ID] = k
+		if old, ok := before[ps[i].ID]; !ok || old != k {
+			add = append(add, i)
+		}
+	}
+	var gone []int // into prior.Passages: removed or changed
+	for i := range prior.Passages {
+		id := prior.Passages[i].ID
+		if k, ok := after[id]; !ok || k != before[id] {
+			gone = append(gone, i)
+		}
+	}
+	if float64(len(add)+len(gone)) > maxUpdateShare*float64(len(order)) {
+		return nil, errors.New("too many changes for an update in place")
+	}
+	if err := copyIndex(prior, indexDir); err != nil {
+		os.RemoveAll(indexDir)
+		return nil, err
+	}
+	fail := func(err error) (*indexStats, error) {
+		os.RemoveAll(indexDir)
+		return nil, err
+	}
+	// The caller writes the new statistics.
+	if err := os.Remove(filepath.Join(indexDir, filepath.Base(StatsFile))); err != nil {
+		return fail(err)
+	}
+	// The statistics: take out what the old passages contributed, put in
+	// what the new ones do, with the same analysis the index applies.
+	adjust := func(docs []index.Document, sign int) {
+		for _, d := range docs {
+			d.VisitFields(func(f index.Field) {
+				if n := f.AnalyzedLength(); n > 0 && f.Name() != "_id" {
+					fs := st.Fields[f.Name()]
+					fs.Docs += sign
+					fs.Tokens += sign * n
+					st.Fields[f.Name()] = fs
+				}
+			})
+		}
+	}
+	oldDocs, err := analyse(cur, prior.Passages, gone)
+	if err != nil {
+		return fail(err)
+	}
+	adjust(oldDocs, -1)
+	newDocs, err := analyse(cur, ps, add)
+	if err != nil {
+		return fail(err)
+	}
+	adjust(newDocs, +1)
+
+	idx, err := bleve.Open(indexDir)
+	if err != nil {
+		return fail(err)
+	}
+	batch := idx.NewBatch()
+	for _, i := range gone {
+		batch.Delete(prior.Passages[i].ID)
+	}
+	for _, i := range add {
+		if err := batch.Index(ps[i].ID, docOf(&ps[i])); err != nil {
+			idx.Close()
+			return fail(err)
+		}
+	}
+	if err := idx.Batch(batch); err != nil {
+		idx.Close()
+		return fail(err)
+	}
+	if err := idx.Close(); err != nil {
+		return fail(err)
+	}
+	st.Docs = len(order)
+	st.Content = indexContent(ps, order)
+	return &st, nil
+}

@@ -205,11 +205,11 @@ func (b *Bundle) Search(query string, k int) ([]Hit, error) {
 	}
 	defer r.Close()
 	acc, _ := b.scratch.Get().(*[]float64)
-	if acc == nil || len(*acc) != len(b.lines) {
+	if acc == nil || len(*acc) < len(b.lines) {
 		a := make([]float64, len(b.lines))
 		acc = &a
 	}
-	top, err := b.params.rank(r, terms, k, *acc)
+	top, err := b.params.rank(r, terms, k, acc)
 	b.scratch.Put(acc)
 	if err != nil {
 		return nil, fmt.Errorf("search: %w", err)
@@ -271,9 +271,11 @@ type scoredDoc struct {
 }
 
 // rank scores every passage that holds any of terms and returns the best k,
-// best first; equal scores in document order. acc is scratch space of one
-// float64 per passage, all zero, and is left all zero.
-func (p *bm25Params) rank(r index.IndexReader, terms [][]byte, k int, acc []float64) ([]scoredDoc, error) {
+// best first; equal scores in document order. *accp is scratch space of at
+// least one float64 per passage, all zero, grown when the index numbers its
+// documents further, and left all zero.
+func (p *bm25Params) rank(r index.IndexReader, terms [][]byte, k int, accp *[]float64) ([]scoredDoc, error) {
+	acc := *accp
 	var touched []uint64
 	ctx := context.Background()
 	var tfd index.TermFieldDoc
@@ -310,8 +312,12 @@ func (p *bm25Params) rank(r index.IndexReader, terms [][]byte, k int, acc []floa
 				}
 				doc := d.ID.Value()
 				if doc >= uint64(len(acc)) {
-					tfr.Close()
-					return nil, fmt.Errorf("index document %d out of range: index and passages disagree", doc)
+					// An index updated in place numbers its documents
+					// past the passage count (deleted ones keep theirs).
+					grown := make([]float64, doc+1+doc/4)
+					copy(grown, acc)
+					acc = grown
+					*accp = grown
 				}
 				if acc[doc] == 0 {
 					touched = append(touched, doc)

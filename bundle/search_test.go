@@ -147,7 +147,8 @@ func TestAverageLengthMatters(t *testing.T) {
 		t.Fatalf("text field: %d distinct terms, bleve's avgdl %v; want 10 and 2", card, bleveAvg)
 	}
 	ids := func(p bm25Params) []string {
-		top, err := p.rank(r, [][]byte{[]byte("truck")}, 3, make([]float64, 5))
+		acc := make([]float64, 5)
+		top, err := p.rank(r, [][]byte{[]byte("truck")}, 3, &acc)
 		if err != nil {
 			t.Fatal(err)
 		}

@@ -344,7 +344,10 @@ func writeTree(dir string, in *Input) (*Manifest, error) {
 	indexDir := filepath.Join(dir, filepath.FromSlash(IndexDir))
 	var stats []byte
 	if !reuseIndex(in.Prior, indexDir, indexContent(in.Passages, order)) {
-		st, err := buildIndex(indexDir, in.Passages, order)
+		st, err := updateIndex(in.Prior, indexDir, in.Passages, order)
+		if err != nil {
+			st, err = buildIndex(indexDir, in.Passages, order)
+		}
 		if err != nil {
 			return nil, err
 		}
@@ -547,8 +550,18 @@ func reuseIndex(prior *Prior, indexDir, content string) bool {
 	if err != nil || json.Unmarshal(data, &st) != nil || st.Content != content {
 		return false
 	}
+	if err := copyIndex(prior, indexDir); err != nil {
+		os.RemoveAll(indexDir)
+		return false
+	}
+	return true
+}
+
+// copyIndex copies the prior bundle's index files into indexDir, checking
+// every byte against the prior manifest.
+func copyIndex(prior *Prior, indexDir string) error {
 	src := filepath.Join(prior.Dir, filepath.FromSlash(IndexDir))
-	err = filepath.WalkDir(src, func(p string, d fs.DirEntry, err error) error {
+	return filepath.WalkDir(src, func(p string, d fs.DirEntry, err error) error {
 		if err != nil {
 			return err
 		}
@@ -573,11 +586,6 @@ func reuseIndex(prior *Prior, indexDir, content string) bool {
 		}
 		return nil
 	})
-	if err != nil {
-		os.RemoveAll(indexDir)
-		return false
-	}
-	return true
 }
 
 // copyHashed copies the file src to dst and returns "sha256:" and the hex
