@@ -234,6 +234,10 @@ func writeBundle(out, src string, res *build.Result, opts build.Options, builtAt
 		},
 		Files: files,
 	}
+	// Like mkdir -p for the folder that will hold the bundle.
+	if err := os.MkdirAll(filepath.Dir(filepath.Clean(out)), 0o755); err != nil {
+		return nil, nil, fmt.Errorf("cannot create the folder for %s: %v", out, unwrapPathErr(err))
+	}
 	prior, err := bundle.ReadPrior(out)
 	if err != nil {
 		fmt.Fprintf(stderr, "kbc: the bundle in %s cannot be read (%v); the delta lists every passage as added\n", out, err)
