@@ -26,6 +26,9 @@ type Cache struct {
 	Format  int
 	Key     string // tool version and settings digest
 	Entries map[string]*CacheEntry
+	// Dedupe is the duplicate stage's last outcome, reused when its whole
+	// input is the same.
+	Dedupe *DedupeMemo
 
 	mu      sync.Mutex
 	changed bool
@@ -194,4 +197,35 @@ func boilerDigest(keys []BlockKey, b *Boilerplate) string {
 		h.Write(buf[:])
 	}
 	return hex.EncodeToString(h.Sum(nil)[:16])
+}
+
+// DedupeMemo is the outcome of the duplicate stage for one exact input:
+// the digest of every passage's id, place, text hash, date and canonical
+// mark, and of the options.
+type DedupeMemo struct {
+	Digest string
+	Drop   []string            // ids of the copies left out
+	AlsoAt map[string][]string // id of a kept passage -> its also_at
+	Report *DuplicateReport
+}
+
+func (c *Cache) dedupeMemo(digest string) *DedupeMemo {
+	if c == nil {
+		return nil
+	}
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	if c.Dedupe != nil && c.Dedupe.Digest == digest {
+		return c.Dedupe
+	}
+	return nil
+}
+
+func (c *Cache) storeDedupe(m *DedupeMemo) {
+	if c == nil {
+		return
+	}
+	c.mu.Lock()
+	c.Dedupe, c.changed = m, true
+	c.mu.Unlock()
 }

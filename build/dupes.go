@@ -1,6 +1,9 @@
 package build
 
 import (
+	"crypto/sha256"
+	"encoding/hex"
+	"fmt"
 	"sort"
 	"strings"
 
@@ -139,7 +142,72 @@ func hasDigit(s string) bool { return strings.IndexAny(s, "0123456789") >= 0 }
 // masked, among passages of different documents: a pair found only that
 // way is reported but both passages stay, since which figure is right is
 // for the owners to settle.
-func dedupePassages(ps []Passage, docs map[string]*sources.Document, opts dedupe.Options) ([]Passage, *DuplicateReport, error) {
+func dedupePassages(ps []Passage, docs map[string]*sources.Document, opts dedupe.Options, cache *Cache) ([]Passage, *DuplicateReport, error) {
+	var digest string
+	if cache != nil {
+		digest = dedupeDigest(ps, docs, opts)
+		if m := cache.dedupeMemo(digest); m != nil {
+			return applyMemo(ps, m), m.Report, nil
+		}
+	}
+	kept, rep, err := findCopies(ps, docs, opts)
+	if err != nil || cache == nil {
+		return kept, rep, err
+	}
+	m := &DedupeMemo{Digest: digest, AlsoAt: map[string][]string{}, Report: rep}
+	seen := make(map[string]bool, len(kept))
+	for _, p := range kept {
+		seen[p.ID] = true
+		if len(p.AlsoAt) > 0 {
+			m.AlsoAt[p.ID] = p.AlsoAt
+		}
+	}
+	for _, p := range ps {
+		if !seen[p.ID] {
+			m.Drop = append(m.Drop, p.ID)
+		}
+	}
+	cache.storeDedupe(m)
+	return kept, rep, nil
+}
+
+// dedupeDigest names everything the duplicate stage's outcome depends on.
+func dedupeDigest(ps []Passage, docs map[string]*sources.Document, opts dedupe.Options) string {
+	h := sha256.New()
+	o, _ := opts.Resolved()
+	fmt.Fprintf(h, "%d %d %g %d %d\x00", o.Hashes, o.Shingle, o.Threshold, o.MinShingles, o.MaxBucket)
+	for i := range ps {
+		p := &ps[i]
+		marked := false
+		if d := docs[p.Path]; d != nil {
+			marked, _ = d.Front["canonical"].(bool)
+		}
+		fmt.Fprintf(h, "%s\x00%s\x00%s\x00%d %d %s %d %t\x00", p.ID, p.Path, p.Anchor, p.Line, p.EndLine, p.Hash, p.Updated.UnixNano(), marked)
+	}
+	return hex.EncodeToString(h.Sum(nil))
+}
+
+// applyMemo replays a remembered outcome on the same passages.
+func applyMemo(ps []Passage, m *DedupeMemo) []Passage {
+	drop := make(map[string]bool, len(m.Drop))
+	for _, id := range m.Drop {
+		drop[id] = true
+	}
+	kept := make([]Passage, 0, len(ps)-len(m.Drop))
+	for _, p := range ps {
+		if drop[p.ID] {
+			continue
+		}
+		if a := m.AlsoAt[p.ID]; a != nil {
+			p.AlsoAt = append([]string(nil), a...)
+		}
+		kept = append(kept, p)
+	}
+	return kept
+}
+
+// findCopies is the duplicate stage proper; see dedupePassages.
+func findCopies(ps []Passage, docs map[string]*sources.Document, opts dedupe.Options) ([]Passage, *DuplicateReport, error) {
 	res, err := dedupe.Find(len(ps), func(i int) string { return ps[i].Text }, opts)
 	if err != nil {
 		return nil, nil, err

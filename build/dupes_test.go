@@ -74,7 +74,7 @@ func TestDedupePassagesKeepsParallelSections(t *testing.T) {
 		{ID: "a", Path: "api.html", Line: 1, Text: strings.ReplaceAll(body, "%s", "16")},
 		{ID: "b", Path: "api.html", Line: 9, Text: strings.ReplaceAll(body, "%s", "32")},
 	}
-	kept, rep, err := dedupePassages(ps, nil, dedupe.DefaultOptions())
+	kept, rep, err := dedupePassages(ps, nil, dedupe.DefaultOptions(), nil)
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -246,7 +246,7 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 		byPath[d.Path] = d
 	}
 	var err2 error
-	res.Passages, res.Duplicates, err2 = dedupePassages(res.Passages, byPath, opts.Dedupe)
+	res.Passages, res.Duplicates, err2 = dedupePassages(res.Passages, byPath, opts.Dedupe, opts.Cache)
 	if err2 != nil {
 		return nil, err2
 	}

@@ -110,7 +110,9 @@ func ReadPassages(dir string) ([]build.Passage, error) {
 
 // Prior is the bundle a new build replaces, which its delta is against.
 type Prior struct {
-	ID       string
+	ID string
+	// Passages are the prior bundle's passages; when nil, All reads them
+	// from Dir on first use (a rebuild that changes nothing never does).
 	Passages []build.Passage
 	// Dir and Manifest, when set, let Write reuse the prior bundle's index
 	// files when the new bundle indexes exactly the same content.
@@ -118,7 +120,21 @@ type Prior struct {
 	Manifest *Manifest
 }
 
-// ReadPrior reads the bundle that a new build into dir will replace. A
+// All returns the prior bundle's passages, reading them from Dir when
+// they were not given.
+func (p *Prior) All() ([]build.Passage, error) {
+	if p.Passages == nil && p.Dir != "" {
+		ps, err := ReadPassages(p.Dir)
+		if err != nil {
+			return nil, err
+		}
+		p.Passages = ps
+	}
+	return p.Passages, nil
+}
+
+// ReadPrior reads the manifest of the bundle that a new build into dir
+// will replace; its passages are read when first needed (Prior.All). A
 // dir that holds no bundle yet gives nil and no error.
 func ReadPrior(dir string) (*Prior, error) {
 	m, err := ReadManifest(dir)
@@ -128,9 +144,5 @@ func ReadPrior(dir string) (*Prior, error) {
 	if err != nil {
 		return nil, err
 	}
-	ps, err := ReadPassages(dir)
-	if err != nil {
-		return nil, err
-	}
-	return &Prior{ID: m.BundleID, Passages: ps, Dir: dir, Manifest: m}, nil
+	return &Prior{ID: m.BundleID, Dir: dir, Manifest: m}, nil
 }

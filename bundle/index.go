@@ -487,10 +487,14 @@ func updateIndex(prior *Prior, indexDir string, ps []build.Passage, order []int)
 		st.Boosts[fieldTitle] != boostTitle || st.Boosts[fieldHeading] != boostHeading || st.Boosts[fieldText] != boostText {
 		return nil, errors.New("prior index made with other ranking settings")
 	}
+	priorPs, err := prior.All()
+	if err != nil {
+		return nil, err
+	}
 	key := func(p *build.Passage) string { return indexContent([]build.Passage{*p}, []int{0}) }
-	before := make(map[string]string, len(prior.Passages))
-	for i := range prior.Passages {
-		before[prior.Passages[i].ID] = key(&prior.Passages[i])
+	before := make(map[string]string, len(priorPs))
+	for i := range priorPs {
+		before[priorPs[i].ID] = key(&priorPs[i])
 	}
 	var add []int // into ps: new or changed
 	after := make(map[string]string, len(order))
@@ -501,9 +505,9 @@ func updateIndex(prior *Prior, indexDir string, ps []build.Passage, order []int)
 			add = append(add, i)
 		}
 	}
-	var gone []int // into prior.Passages: removed or changed
-	for i := range prior.Passages {
-		id := prior.Passages[i].ID
+	var gone []int // into priorPs: removed or changed
+	for i := range priorPs {
+		id := priorPs[i].ID
 		if k, ok := after[id]; !ok || k != before[id] {
 			gone = append(gone, i)
 		}
@@ -537,7 +541,7 @@ func updateIndex(prior *Prior, indexDir string, ps []build.Passage, order []int)
 			})
 		}
 	}
-	oldDocs, err := analyse(cur, prior.Passages, gone)
+	oldDocs, err := analyse(cur, priorPs, gone)
 	if err != nil {
 		return fail(err)
 	}
@@ -554,7 +558,7 @@ func updateIndex(prior *Prior, indexDir string, ps []build.Passage, order []int)
 	}
 	batch := idx.NewBatch()
 	for _, i := range gone {
-		batch.Delete(prior.Passages[i].ID)
+		batch.Delete(priorPs[i].ID)
 	}
 	for _, i := range add {
 		if err := batch.Index(ps[i].ID, docOf(&ps[i])); err != nil {

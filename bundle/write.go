@@ -320,7 +320,12 @@ func writeTree(dir string, in *Input) (*Manifest, error) {
 	var prior []build.Passage
 	delta := &Delta{}
 	if in.Prior != nil {
-		prior, delta.From = in.Prior.Passages, in.Prior.ID
+		delta.From = in.Prior.ID
+		if in.Prior.ID == m.BundleID {
+			prior = sorted // the same bytes: nothing to compare
+		} else if prior, err = in.Prior.All(); err != nil {
+			return nil, fmt.Errorf("reading the bundle replaced: %w", err)
+		}
 	}
 	d := Diff(prior, sorted)
 	d.From, d.To = delta.From, m.BundleID

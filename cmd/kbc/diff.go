@@ -29,6 +29,9 @@ func runDiff(args []string, stdout, stderr io.Writer) int {
 		if err == nil && p == nil {
 			err = fmt.Errorf("no bundle here (no manifest.json)")
 		}
+		if err == nil {
+			_, err = p.All()
+		}
 		if err != nil {
 			fmt.Fprintf(stderr, "kbc diff: %s: %v\n", dir, err)
 			return exitFailure
