@@ -7,6 +7,7 @@ import (
 	"encoding/json"
 	"sort"
 	"sync"
+	"time"
 
 	"github.com/kbc-project/kbc/sources"
 )
@@ -37,6 +38,9 @@ type Cache struct {
 // CacheEntry is what one build learned about one file.
 type CacheEntry struct {
 	Hash      string            // SHA-256 of the file's bytes
+	Size      int64             // the file's size and modification time when
+	ModTime   time.Time         // it was read: unchanged, they vouch for Hash
+	Checked   time.Time         // when the bytes were read and hashed
 	Doc       *sources.Document // normalised; Front travels in FrontJSON
 	FrontJSON []byte            // the document's front matter as JSON
 	Keys      []BlockKey        // BlockKeys(Doc)
@@ -84,6 +88,47 @@ func (c *Cache) lookup(path, hash string) *CacheEntry {
 	return e
 }
 
+// racyWindow is how long a file must have been left alone before it was
+// read for its size and time to vouch for its content later: file times
+// are coarse (a kernel tick), so a file changed again within the same tick
+// as the read would keep both. git handles its "racy" entries the same
+// way (from memory of git's racy-git notes, not checked here).
+const racyWindow = time.Second
+
+// unchanged returns the entry for the walked file f when its size and
+// modification time are those recorded and the file had been left alone
+// for racyWindow when it was read, without reading the file: the check make
+// and git rely on. An edit that keeps both (a tool that restores the old
+// time on a file of the same size) goes unseen until the file changes
+// again; delete OUT.cache to force a full read.
+func (c *Cache) unchanged(f sources.File) *CacheEntry {
+	if c == nil || f.ModTime.IsZero() {
+		return nil
+	}
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	e := c.Entries[f.Path]
+	if e == nil || (e.Doc == nil && e.Fail == nil) || e.Size != f.Size || !e.ModTime.Equal(f.ModTime) ||
+		!e.ModTime.Before(e.Checked.Add(-racyWindow)) {
+		return nil
+	}
+	return e
+}
+
+// seen records that the file f, read again, still has the cached bytes, so
+// that its new size and time vouch for them from now on.
+func (c *Cache) seen(f sources.File) {
+	if c == nil {
+		return
+	}
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	if e := c.Entries[f.Path]; e != nil && (!e.ModTime.Equal(f.ModTime) || e.Size != f.Size || !e.ModTime.Before(e.Checked.Add(-racyWindow))) {
+		e.Size, e.ModTime, e.Checked = f.Size, f.ModTime, time.Now()
+		c.changed = true
+	}
+}
+
 // document returns a fresh copy of the entry's document, with its front
 // matter decoded and the file time of this build.
 func (e *CacheEntry) document(f sources.File) (*sources.Document, bool) {
@@ -98,24 +143,25 @@ func (e *CacheEntry) document(f sources.File) (*sources.Document, bool) {
 
 // storeFail records that path, with these bytes, was left out and why, so
 // an unchanged bad file is not parsed again just to fail again.
-func (c *Cache) storeFail(path, hash string, fail *sources.Error) {
+func (c *Cache) storeFail(file sources.File, hash string, fail *sources.Error) {
 	if c == nil || hash == "" {
 		return
 	}
 	f := *fail
 	f.Err = nil
 	c.mu.Lock()
-	c.Entries[path] = &CacheEntry{Hash: hash, Fail: &f}
+	c.Entries[file.Path] = &CacheEntry{Hash: hash, Size: file.Size, ModTime: file.ModTime, Checked: time.Now(), Fail: &f}
 	c.changed = true
 	c.mu.Unlock()
 }
 
 // store records what a build made of path.
-func (c *Cache) store(path, hash string, d *sources.Document) {
+func (c *Cache) store(file sources.File, hash string, d *sources.Document) {
 	if c == nil {
 		return
 	}
-	e := &CacheEntry{Hash: hash, Keys: BlockKeys(d)}
+	path := file.Path
+	e := &CacheEntry{Hash: hash, Size: file.Size, ModTime: file.ModTime, Checked: time.Now(), Keys: BlockKeys(d)}
 	doc := *d
 	if len(doc.Front) > 0 {
 		e.FrontJSON, _ = json.Marshal(doc.Front)

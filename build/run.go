@@ -267,6 +267,15 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 // the cache when its bytes are unchanged (reported by reused). A nil
 // document comes with the error that kept it out.
 func readDocument(fsys fs.FS, f sources.File, maxSize int64, cache *Cache) (doc *sources.Document, reused bool, _ *sources.Error) {
+	if e := cache.unchanged(f); e != nil {
+		if e.Fail != nil {
+			fail := *e.Fail
+			return nil, true, &fail
+		}
+		if d, ok := e.document(f); ok {
+			return d, true, nil
+		}
+	}
 	data, rerr := sources.ReadFile(fsys, f, maxSize)
 	if rerr != nil {
 		return nil, false, rerr
@@ -276,6 +285,7 @@ func readDocument(fsys fs.FS, f sources.File, maxSize int64, cache *Cache) (doc 
 		sum := sha256.Sum256(data)
 		hash = hex.EncodeToString(sum[:])
 		if e := cache.lookup(f.Path, hash); e != nil {
+			cache.seen(f)
 			if e.Fail != nil {
 				fail := *e.Fail
 				return nil, true, &fail
@@ -291,7 +301,7 @@ func readDocument(fsys fs.FS, f sources.File, maxSize int64, cache *Cache) (doc 
 		if !ok {
 			pe = &sources.Error{Path: f.Path, Msg: err.Error(), Err: err}
 		}
-		cache.storeFail(f.Path, hash, pe)
+		cache.storeFail(f, hash, pe)
 		return nil, false, pe
 	}
 	doc.ModTime = f.ModTime.UTC()
@@ -299,10 +309,10 @@ func readDocument(fsys fs.FS, f sources.File, maxSize int64, cache *Cache) (doc 
 	Normalize(doc)
 	if hadText && len(doc.Blocks) == 0 {
 		fail := sources.ErrNoText(f.Path)
-		cache.storeFail(f.Path, hash, fail)
+		cache.storeFail(f, hash, fail)
 		return nil, false, fail
 	}
-	cache.store(f.Path, hash, doc)
+	cache.store(f, hash, doc)
 	return doc, false, nil
 }
 

@@ -69,3 +69,36 @@ func TestRunGoesOnAfterBadFiles(t *testing.T) {
 		t.Errorf("passages from %v, want good.md and frontbad.md", paths)
 	}
 }
+
+// TestCacheTrustsOnlySettledFiles: a file is taken from the cache by its
+// size and time alone only when it had been left alone for a while before
+// it was read; a file rewritten within one clock tick with the same size
+// must still be seen to change.
+func TestCacheTrustsOnlySettledFiles(t *testing.T) {
+	old := time.Now().Add(-time.Hour)
+	fsys := fstest.MapFS{
+		"settled.md": {Data: []byte("# Settled\n\nThe yard closes at ten."), ModTime: old},
+		"racy.md":    {Data: []byte("# Racy\n\nChecked every 30 days."), ModTime: time.Now()},
+	}
+	opts := DefaultOptions()
+	opts.Cache = NewCache("test", opts.Settings)
+	if _, err := Run(context.Background(), fsys, opts); err != nil {
+		t.Fatal(err)
+	}
+	// Same size, same time, new bytes: only a fresh read can tell.
+	fsys["racy.md"].Data = []byte("# Racy\n\nChecked every 90 days.")
+	res, err := Run(context.Background(), fsys, opts)
+	if err != nil {
+		t.Fatal(err)
+	}
+	found := false
+	for _, p := range res.Passages {
+		found = found || strings.Contains(p.Text, "90 days")
+	}
+	if !found {
+		t.Error("the racy file's new text is missing: the cache trusted its size and time")
+	}
+	if res.Stats.Reused != 1 {
+		t.Errorf("reused %d documents, want 1 (the settled one)", res.Stats.Reused)
+	}
+}

@@ -147,9 +147,9 @@ func (g gates) check(st *build.StalenessReport, divergent int, stderr io.Writer)
 // compile checks src and runs the pipeline over it, printing each bad
 // input file as one line on stderr. It returns the exit code to stop with,
 // or -1 to go on.
-// With out set, compile uses and updates the build cache kept beside that
-// bundle folder (saved by writeBundle).
-func compile(ctx context.Context, fs *flag.FlagSet, sf *sourceFlags, src, out string, now time.Time, stderr io.Writer) (*build.Result, build.Options, gates, int) {
+// With a session, compile uses and updates the build cache of its bundle
+// folder (saved by writeBundle or, in watch mode, when watching stops).
+func compile(ctx context.Context, fs *flag.FlagSet, sf *sourceFlags, src string, sess *session, now time.Time, stderr io.Writer) (*build.Result, build.Options, gates, int) {
 	if st, err := os.Stat(src); err != nil || !st.IsDir() {
 		if err == nil {
 			err = errors.New("not a folder")
@@ -168,8 +168,8 @@ func compile(ctx context.Context, fs *flag.FlagSet, sf *sourceFlags, src, out st
 	}
 	opts.Now = now
 	opts.GitDir = src
-	if out != "" {
-		opts.Cache = loadCache(out, opts.Settings, stderr)
+	if sess != nil {
+		opts.Cache = sess.cacheFor(opts.Settings, stderr)
 	}
 	bar := newProgress(stderr)
 	opts.Progress = bar.update
@@ -182,21 +182,48 @@ func compile(ctx context.Context, fs *flag.FlagSet, sf *sourceFlags, src, out st
 	return res, opts, g, -1
 }
 
-// loadCache reads the build cache of the bundle folder out. A cache that
-// cannot be read, or was made by another kbc version or other settings,
-// is reported once and replaced by an empty one: it is never trusted.
-func loadCache(out string, s build.Settings, stderr io.Writer) *build.Cache {
+// session is what one kbc process keeps between builds of one bundle
+// folder: the build cache and, in watch mode, the bundle it last wrote.
+type session struct {
+	out   string
+	watch bool // keep the cache in memory and save it once, at the end
+
+	cache *build.Cache
+	prior *bundle.Prior // the bundle last written; nil: read it from out
+}
+
+// cacheFor returns the build cache for these settings: the one in memory
+// when it fits, else the one on disk when it fits, else a new one. A cache
+// that cannot be read, or was made by another kbc version or with other
+// settings, is reported once and replaced: it is never trusted.
+func (s *session) cacheFor(set build.Settings, stderr io.Writer) *build.Cache {
 	tool := "kbc " + version
-	c, err := bundle.ReadCache(out)
+	if s.cache.Fits(tool, set) {
+		return s.cache
+	}
+	c, err := bundle.ReadCache(s.out)
 	switch {
 	case err != nil:
 		fmt.Fprintf(stderr, "kbc: build cache unreadable (%v); rebuilding it\n", err)
-	case c != nil && !c.Fits(tool, s):
-		fmt.Fprintf(stderr, "kbc: build cache %s was made by another kbc version or other settings; rebuilding it\n", bundle.CacheDir(out))
-	case c != nil:
-		return c
+		c = nil
+	case c != nil && !c.Fits(tool, set):
+		fmt.Fprintf(stderr, "kbc: build cache %s was made by another kbc version or other settings; rebuilding it\n", bundle.CacheDir(s.out))
+		c = nil
 	}
-	return build.NewCache(tool, s)
+	if c == nil {
+		c = build.NewCache(tool, set)
+	}
+	s.cache = c
+	return c
+}
+
+// saveCache writes the build cache back when a build changed it.
+func (s *session) saveCache(stderr io.Writer) {
+	if s.cache != nil && s.cache.Changed() {
+		if err := bundle.WriteCache(s.out, s.cache); err != nil {
+			fmt.Fprintf(stderr, "kbc: could not save the build cache: %v\n", err)
+		}
+	}
 }
 
 // interrupted returns a context cancelled by Ctrl-C or SIGTERM.
@@ -210,9 +237,10 @@ func printProblems(res *build.Result, stderr io.Writer) {
 	}
 }
 
-// writeBundle writes a build's bundle, reports and delta into out and
-// returns its manifest and delta.
-func writeBundle(out, src string, res *build.Result, opts build.Options, builtAt time.Time, stderr io.Writer) (*bundle.Manifest, *bundle.Delta, error) {
+// writeBundle writes a build's bundle, reports and delta into the
+// session's folder and returns its manifest and delta.
+func writeBundle(sess *session, src string, res *build.Result, opts build.Options, builtAt time.Time, stderr io.Writer) (*bundle.Manifest, *bundle.Delta, error) {
+	out := sess.out
 	files, err := reportFiles(res)
 	if err != nil {
 		return nil, nil, err
@@ -238,20 +266,24 @@ func writeBundle(out, src string, res *build.Result, opts build.Options, builtAt
 	if err := os.MkdirAll(filepath.Dir(filepath.Clean(out)), 0o755); err != nil {
 		return nil, nil, fmt.Errorf("cannot create the folder for %s: %v", out, unwrapPathErr(err))
 	}
-	prior, err := bundle.ReadPrior(out)
-	if err != nil {
-		fmt.Fprintf(stderr, "kbc: the bundle in %s cannot be read (%v); the delta lists every passage as added\n", out, err)
-		prior = nil
+	prior := sess.prior
+	if prior == nil {
+		if prior, err = bundle.ReadPrior(out); err != nil {
+			fmt.Fprintf(stderr, "kbc: the bundle in %s cannot be read (%v); the delta lists every passage as added\n", out, err)
+			prior = nil
+		}
 	}
 	in.Prior = prior
 	m, err := bundle.Write(out, in)
 	if err != nil {
+		sess.prior = nil // read what is there now next time
 		return nil, nil, err
 	}
-	if opts.Cache != nil && opts.Cache.Changed() {
-		if err := bundle.WriteCache(out, opts.Cache); err != nil {
-			fmt.Fprintf(stderr, "kbc: could not save the build cache: %v\n", err)
-		}
+	if sess.watch {
+		// The next rebuild compares against this bundle: keep it.
+		sess.prior = &bundle.Prior{ID: m.BundleID, Passages: res.Passages, Dir: out, Manifest: m}
+	} else {
+		sess.saveCache(stderr)
 	}
 	var delta bundle.Delta
 	data, err := os.ReadFile(filepath.Join(out, bundle.DeltaFile))
@@ -295,7 +327,8 @@ func runBuild(args []string, stdout, stderr io.Writer) int {
 	start := time.Now()
 	ctx, stop := interrupted()
 	defer stop()
-	res, opts, g, code := compile(ctx, fs, sf, src, *out, builtAt, stderr)
+	sess := &session{out: *out}
+	res, opts, g, code := compile(ctx, fs, sf, src, sess, builtAt, stderr)
 	if code >= 0 {
 		return code
 	}
@@ -304,7 +337,7 @@ func runBuild(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintf(stderr, "kbc build: %v\n", res.Strict())
 		return exitFailure
 	}
-	m, delta, err := writeBundle(*out, src, res, opts, builtAt, stderr)
+	m, delta, err := writeBundle(sess, src, res, opts, builtAt, stderr)
 	if err != nil {
 		fmt.Fprintf(stderr, "kbc build: %v\n", err)
 		return exitFailure

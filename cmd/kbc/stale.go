@@ -50,7 +50,7 @@ func runStale(args []string, stdout, stderr io.Writer) int {
 	} else {
 		ctx, stop := interrupted()
 		defer stop()
-		res, _, gg, code := compile(ctx, fs, sf, pos[0], "", now, stderr)
+		res, _, gg, code := compile(ctx, fs, sf, pos[0], nil, now, stderr)
 		if code >= 0 {
 			return code
 		}

@@ -82,6 +82,10 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 	}
 	defer w.Close()
 
+	// The build cache stays in memory between rebuilds and is saved once,
+	// when watching stops.
+	sess := &session{out: *out, watch: true}
+	defer sess.saveCache(stderr)
 	var last *build.Result
 	var pv *preview.Server // the live preview, when serving
 	seen := map[string]bool{}
@@ -92,7 +96,7 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 			fmt.Fprintf(stderr, "kbc watch: %v\n", err)
 			return
 		}
-		res, opts, _, code := compile(ctx, fs, sf, src, *out, now, stderr)
+		res, opts, _, code := compile(ctx, fs, sf, src, sess, now, stderr)
 		if code >= 0 {
 			return // compile said why; the last good bundle stays
 		}
@@ -104,7 +108,7 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 				fmt.Fprintln(stderr, p.Error())
 			}
 		}
-		m, delta, err := writeBundle(*out, src, res, opts, now, stderr)
+		m, delta, err := writeBundle(sess, src, res, opts, now, stderr)
 		if err != nil {
 			fmt.Fprintf(stderr, "kbc watch: %v (the last good bundle stays)\n", err)
 			return
