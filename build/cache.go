@@ -9,6 +9,7 @@ import (
 	"sync"
 	"time"
 
+	"github.com/kbc-project/kbc/build/dedupe"
 	"github.com/kbc-project/kbc/sources"
 )
 
@@ -33,6 +34,47 @@ type Cache struct {
 
 	mu      sync.Mutex
 	changed bool
+	// memos keep the duplicate search's per-text hashing between builds
+	// that share this Cache in memory (watch mode); they are not saved.
+	memos [2]*dedupe.Memo   // real text, masked text
+	masks map[string]string // passage text hash -> masked text, same lifetime
+}
+
+// masked returns maskFigures of each passage's text, remembering the
+// results in memory for the next build that shares this Cache.
+func (c *Cache) masked(ps []Passage) []string {
+	out := make([]string, len(ps))
+	if c == nil {
+		for i := range ps {
+			out[i] = maskFigures(ps[i].Text)
+		}
+		return out
+	}
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	next := make(map[string]string, len(ps))
+	for i := range ps {
+		m, ok := c.masks[ps[i].Hash]
+		if !ok {
+			m = maskFigures(ps[i].Text)
+		}
+		out[i], next[ps[i].Hash] = m, m
+	}
+	c.masks = next
+	return out
+}
+
+// memo returns the hashing memo for the real (0) or masked (1) texts.
+func (c *Cache) memo(which int) *dedupe.Memo {
+	if c == nil {
+		return nil
+	}
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	if c.memos[which] == nil {
+		c.memos[which] = &dedupe.Memo{}
+	}
+	return c.memos[which]
 }
 
 // CacheEntry is what one build learned about one file.

@@ -150,7 +150,7 @@ func dedupePassages(ps []Passage, docs map[string]*sources.Document, opts dedupe
 			return applyMemo(ps, m), m.Report, nil
 		}
 	}
-	kept, rep, err := findCopies(ps, docs, opts)
+	kept, rep, err := findCopies(ps, docs, opts, cache)
 	if err != nil || cache == nil {
 		return kept, rep, err
 	}
@@ -207,16 +207,15 @@ func applyMemo(ps []Passage, m *DedupeMemo) []Passage {
 }
 
 // findCopies is the duplicate stage proper; see dedupePassages.
-func findCopies(ps []Passage, docs map[string]*sources.Document, opts dedupe.Options) ([]Passage, *DuplicateReport, error) {
-	res, err := dedupe.Find(len(ps), func(i int) string { return ps[i].Text }, opts)
+func findCopies(ps []Passage, docs map[string]*sources.Document, opts dedupe.Options, cache *Cache) ([]Passage, *DuplicateReport, error) {
+	raw, masking := opts, opts
+	raw.Memo, masking.Memo = cache.memo(0), cache.memo(1)
+	res, err := dedupe.Find(len(ps), func(i int) string { return ps[i].Text }, raw)
 	if err != nil {
 		return nil, nil, err
 	}
-	masked := make([]string, len(ps))
-	for i := range ps {
-		masked[i] = maskFigures(ps[i].Text)
-	}
-	resM, err := dedupe.Find(len(ps), func(i int) string { return masked[i] }, opts)
+	masked := cache.masked(ps)
+	resM, err := dedupe.Find(len(ps), func(i int) string { return masked[i] }, masking)
 	if err != nil {
 		return nil, nil, err
 	}

@@ -10,6 +10,7 @@ import (
 	"io/fs"
 	"os"
 	"path/filepath"
+	"slices"
 	"sort"
 
 	"github.com/kbc-project/kbc/build"
@@ -56,25 +57,26 @@ func ContentHash(p *build.Passage) string {
 	return hex.EncodeToString(h.Sum(nil))
 }
 
-// Diff compares the passages of two bundles by id and ContentHash. The
-// result is sorted by id.
+// Diff compares the passages of two bundles by id and content (title,
+// heading trail and text; Change carries their ContentHash). The result is
+// sorted by id.
 func Diff(old, cur []build.Passage) *Delta {
 	d := &Delta{Added: []string{}, Changed: []Change{}, Removed: []string{}}
-	before := make(map[string]string, len(old))
+	before := make(map[string]*build.Passage, len(old))
 	for i := range old {
-		before[old[i].ID] = ContentHash(&old[i])
+		before[old[i].ID] = &old[i]
 	}
 	seen := make(map[string]bool, len(cur))
 	for i := range cur {
 		p := &cur[i]
 		seen[p.ID] = true
-		h, ok := before[p.ID]
+		q, ok := before[p.ID]
 		if !ok {
 			d.Added = append(d.Added, p.ID)
 			continue
 		}
-		if nh := ContentHash(p); h != nh {
-			d.Changed = append(d.Changed, Change{ID: p.ID, OldHash: h, NewHash: nh})
+		if q.Text != p.Text || q.Title != p.Title || !slices.Equal(q.Heading, p.Heading) {
+			d.Changed = append(d.Changed, Change{ID: p.ID, OldHash: ContentHash(q), NewHash: ContentHash(p)})
 		}
 	}
 	for _, p := range old {

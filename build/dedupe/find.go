@@ -150,6 +150,10 @@ func Find(n int, text func(i int) string, opts Options) (*Result, error) {
 	res := &Result{Bands: b, Rows: r, Passages: n}
 
 	t := time.Now()
+	if o.Memo != nil {
+		o.Memo.begin(o, r)
+		defer o.Memo.end()
+	}
 	f.hash()
 	res.Bytes = f.bytes.Load()
 	res.Timings.Hash = time.Since(t)
@@ -219,33 +223,60 @@ func (f *finder) hash() {
 		for i := lo; i < hi; i++ {
 			text := f.text(i)
 			bytes += int64(len(text))
-			s.words = hashWords(&s.sc, text, s.words[:0])
-			if len(s.words) == 0 {
-				continue
-			}
-			f.exact[i] = seqHash(s.words)
-			s.sh = shingles(s.words, o.Shingle, s.sh[:0])
-			f.count[i] = uint32(len(s.sh)) // a text under 4 GB has fewer shingles than 2^32
-			f.kind[i] = kindShort
-			if len(s.sh) < o.MinShingles {
-				continue
-			}
-			if dens.oph(s.sh, s.sig, s.filled) < o.MinShingles {
-				// Fewer filled bins than MinShingles may still be enough
-				// distinct shingles sharing bins: count them.
-				s.tmp = append(s.tmp[:0], s.sh...)
-				if len(sortedSet(s.tmp)) < o.MinShingles {
+			var tk uint64
+			if o.Memo != nil {
+				tk = textKey(text)
+				if e := o.Memo.get(tk); e != nil {
+					f.exact[i], f.count[i], f.kind[i] = e.exact, e.count, e.kind
+					for band, k := range e.keys {
+						f.keys[band][i] = k
+					}
 					continue
 				}
 			}
-			f.kind[i] = kindFull
-			bandKeys(s.sig, f.r, s.keys)
-			for band, k := range s.keys {
-				f.keys[band][i] = k
+			f.hashOne(i, text, s, dens)
+			if o.Memo != nil {
+				e := &memoEntry{exact: f.exact[i], count: f.count[i], kind: f.kind[i]}
+				if e.kind == kindFull {
+					e.keys = make([]uint64, f.b)
+					for band := range e.keys {
+						e.keys[band] = f.keys[band][i]
+					}
+				}
+				o.Memo.put(tk, e)
 			}
 		}
 		f.bytes.Add(bytes)
 	})
+}
+
+// hashOne does the hashing stage's work for passage i.
+func (f *finder) hashOne(i int, text string, s *hashScratch, dens *densifier) {
+	o := f.o
+	s.words = hashWords(&s.sc, text, s.words[:0])
+	if len(s.words) == 0 {
+		return
+	}
+	f.exact[i] = seqHash(s.words)
+	s.sh = shingles(s.words, o.Shingle, s.sh[:0])
+	f.count[i] = uint32(len(s.sh)) // a text under 4 GB has fewer shingles than 2^32
+	f.kind[i] = kindShort
+	if len(s.sh) < o.MinShingles {
+		return
+	}
+	if dens.oph(s.sh, s.sig, s.filled) < o.MinShingles {
+		// Fewer filled bins than MinShingles may still be enough
+		// distinct shingles sharing bins: count them.
+		s.tmp = append(s.tmp[:0], s.sh...)
+		if len(sortedSet(s.tmp)) < o.MinShingles {
+			return
+		}
+	}
+	f.kind[i] = kindFull
+	bandKeys(s.sig, f.r, s.keys)
+	for band, k := range s.keys {
+		f.keys[band][i] = k
+	}
 }
 
 // groupExact groups passages with equal word-sequence hashes and lists the

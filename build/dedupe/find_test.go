@@ -336,3 +336,31 @@ func TestFindEmpty(t *testing.T) {
 		}
 	}
 }
+
+// TestFindMemo: a Memo changes nothing in the result, across calls whose
+// texts partly change.
+func TestFindMemo(t *testing.T) {
+	base := []string{}
+	for i := 0; i < 60; i++ {
+		base = append(base, fmt.Sprintf("passage %d says the reefer door seal is checked every thirty days by the depot workshop team and logged in the fleet system under trailer %d", i%20, i))
+	}
+	memo := &Memo{}
+	for round := 0; round < 3; round++ {
+		texts := append([]string(nil), base...)
+		texts[round*7] = "a brand new text about dry ice handling in the north depot freezer hall with gloves and a face shield"
+		plain, err := Find(len(texts), func(i int) string { return texts[i] }, Options{Workers: 2})
+		if err != nil {
+			t.Fatal(err)
+		}
+		memoed, err := Find(len(texts), func(i int) string { return texts[i] }, Options{Workers: 2, Memo: memo})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if !reflect.DeepEqual(plain.Clusters, memoed.Clusters) {
+			t.Fatalf("round %d: clusters differ with a memo", round)
+		}
+	}
+	if n := len(memo.m); n > 61 {
+		t.Errorf("memo holds %d entries after three rounds of 60 texts; stale entries are not dropped", n)
+	}
+}

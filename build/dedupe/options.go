@@ -41,6 +41,11 @@ type Options struct {
 	// candidates do not fit, pairs are verified in rounds and a set may be
 	// rebuilt from its text in more than one round.
 	SetMemory int64
+	// Memo, when set, remembers each text's hashing work between calls,
+	// so that a Find over mostly the same texts (a rebuild after one page
+	// changed) hashes only the new ones. It is not an option of the
+	// result: the result is the same with or without it.
+	Memo *Memo `json:"-"`
 }
 
 // DefaultOptions returns the defaults: 128 hashes, 5-word shingles,
