@@ -198,12 +198,12 @@ func (c *Cache) storeFail(file sources.File, hash string, fail *sources.Error) {
 }
 
 // store records what a build made of path.
-func (c *Cache) store(file sources.File, hash string, d *sources.Document) {
+func (c *Cache) store(file sources.File, hash string, d *sources.Document, keys []BlockKey) {
 	if c == nil {
 		return
 	}
 	path := file.Path
-	e := &CacheEntry{Hash: hash, Size: file.Size, ModTime: file.ModTime, Checked: time.Now(), Keys: BlockKeys(d)}
+	e := &CacheEntry{Hash: hash, Size: file.Size, ModTime: file.ModTime, Checked: time.Now(), Keys: keys}
 	doc := *d
 	if len(doc.Front) > 0 {
 		e.FrontJSON, _ = json.Marshal(doc.Front)

@@ -130,6 +130,7 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 	docs := make([]*sources.Document, len(files))
 	fails := make([]*sources.Error, len(files))
 	reused := make([]bool, len(files))
+	keys := make([][]BlockKey, len(files))
 	var done atomic.Int64
 	g, gctx := errgroup.WithContext(ctx)
 	g.SetLimit(workers)
@@ -138,7 +139,7 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 			if err := gctx.Err(); err != nil {
 				return err
 			}
-			docs[i], reused[i], fails[i] = readDocument(fsys, f, opts.Walk.MaxSize, opts.Cache)
+			docs[i], keys[i], reused[i], fails[i] = readDocument(fsys, f, opts.Walk.MaxSize, opts.Cache)
 			if opts.Progress != nil {
 				opts.Progress(int(done.Add(1)), len(files))
 			}
@@ -149,6 +150,7 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 		return nil, err
 	}
 	kept := docs[:0]
+	keptKeys := keys[:0]
 	present := make(map[string]bool, len(files))
 	for i, d := range docs {
 		present[files[i].Path] = true
@@ -166,8 +168,9 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 			res.Stats.Empty++
 		}
 		kept = append(kept, d)
+		keptKeys = append(keptKeys, keys[i])
 	}
-	docs = kept
+	docs, keys = kept, keptKeys
 	res.Stats.Skipped += len(walkErrs)
 
 	opts.Cache.keep(present)
@@ -192,7 +195,26 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 	res.Stats.Stale = res.Staleness.Counts.StaleOrExpired()
 
 	// Stage 3: find the site boilerplate across all documents.
-	bp := FindBoilerplate(docs, s)
+	// Each document's block keys come from the cache or from reading it.
+	counts := make(map[BlockKey]int)
+	for _, ks := range keys {
+		for _, k := range ks {
+			counts[k]++
+		}
+	}
+	bp := NewBoilerplate(counts, len(docs), s)
+	if bp.Len() > 0 {
+		var with []*sources.Document // only pages that hold some boilerplate
+		for i, d := range docs {
+			for _, k := range keys[i] {
+				if bp.Has(k) {
+					with = append(with, d)
+					break
+				}
+			}
+		}
+		bp.Describe(with)
+	}
 	res.Boilerplate = bp.Entries()
 
 	// Stage 4: strip boilerplate and split each document into passages,
@@ -211,7 +233,7 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 			var digest string
 			ok := false
 			if opts.Cache != nil {
-				digest = boilerDigest(BlockKeys(d), bp)
+				digest = boilerDigest(keys[i], bp)
 				parts[i], ok = opts.Cache.passages(d.Path, digest)
 			}
 			if !ok {
@@ -264,21 +286,21 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 }
 
 // readDocument reads, parses and normalises one file, or takes it from
-// the cache when its bytes are unchanged (reported by reused). A nil
-// document comes with the error that kept it out.
-func readDocument(fsys fs.FS, f sources.File, maxSize int64, cache *Cache) (doc *sources.Document, reused bool, _ *sources.Error) {
+// the cache when its bytes are unchanged (reported by reused), and returns
+// its block keys. A nil document comes with the error that kept it out.
+func readDocument(fsys fs.FS, f sources.File, maxSize int64, cache *Cache) (doc *sources.Document, keys []BlockKey, reused bool, _ *sources.Error) {
 	if e := cache.unchanged(f); e != nil {
 		if e.Fail != nil {
 			fail := *e.Fail
-			return nil, true, &fail
+			return nil, nil, true, &fail
 		}
 		if d, ok := e.document(f); ok {
-			return d, true, nil
+			return d, e.Keys, true, nil
 		}
 	}
 	data, rerr := sources.ReadFile(fsys, f, maxSize)
 	if rerr != nil {
-		return nil, false, rerr
+		return nil, nil, false, rerr
 	}
 	var hash string
 	if cache != nil {
@@ -288,10 +310,10 @@ func readDocument(fsys fs.FS, f sources.File, maxSize int64, cache *Cache) (doc 
 			cache.seen(f)
 			if e.Fail != nil {
 				fail := *e.Fail
-				return nil, true, &fail
+				return nil, nil, true, &fail
 			}
 			if d, ok := e.document(f); ok {
-				return d, true, nil
+				return d, e.Keys, true, nil
 			}
 		}
 	}
@@ -302,7 +324,7 @@ func readDocument(fsys fs.FS, f sources.File, maxSize int64, cache *Cache) (doc 
 			pe = &sources.Error{Path: f.Path, Msg: err.Error(), Err: err}
 		}
 		cache.storeFail(f, hash, pe)
-		return nil, false, pe
+		return nil, nil, false, pe
 	}
 	doc.ModTime = f.ModTime.UTC()
 	hadText := len(doc.Blocks) > 0
@@ -310,10 +332,11 @@ func readDocument(fsys fs.FS, f sources.File, maxSize int64, cache *Cache) (doc 
 	if hadText && len(doc.Blocks) == 0 {
 		fail := sources.ErrNoText(f.Path)
 		cache.storeFail(f, hash, fail)
-		return nil, false, fail
+		return nil, nil, false, fail
 	}
-	cache.store(f, hash, doc)
-	return doc, false, nil
+	keys = BlockKeys(doc)
+	cache.store(f, hash, doc, keys)
+	return doc, keys, false, nil
 }
 
 // stamp copies a document's freshness onto one of its passages.
