@@ -65,6 +65,9 @@ func runQuery(args []string, stdout, stderr io.Writer) int {
 		for _, l := range firstLines(h.Text, 2, 100) {
 			fmt.Fprintf(stdout, "    | %s\n", l)
 		}
+		if len(h.AlsoAt) > 0 {
+			fmt.Fprintf(stdout, "    also at: %s\n", strings.Join(h.AlsoAt, ", "))
+		}
 	}
 	return exitOK
 }
