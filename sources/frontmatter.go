@@ -161,7 +161,10 @@ func decodeErrorLine(s, format string) (line int, msg string) {
 // tidyMessage makes a decoder's message fit ours: lower-case start (unless
 // the first word is an acronym), no full stop.
 func tidyMessage(s string) string {
-	s = strings.TrimSuffix(strings.TrimSpace(s), ".")
+	// A message is one line: decoders quote the bad input, which may hold
+	// a line break or a tab.
+	s = strings.NewReplacer("\n", `\n`, "\r", `\r`, "\t", `\t`).Replace(strings.TrimSpace(s))
+	s = strings.TrimSuffix(s, ".")
 	if len(s) > 1 && 'A' <= s[0] && s[0] <= 'Z' && 'a' <= s[1] && s[1] <= 'z' {
 		s = string(s[0]+'a'-'A') + s[1:]
 	}
