@@ -12,11 +12,11 @@ import (
 // Stamp records, beside a bundle (in its cache folder), the inputs it was
 // built from, so that a build with the same inputs can leave it as it is.
 type Stamp struct {
-	Inputs   string          `json:"inputs"`   // build.InputsDigest of the build
-	Read     time.Time       `json:"read"`     // when the inputs were looked at
+	Inputs   string          `json:"inputs"` // build.InputsDigest of the build
+	Read     time.Time       `json:"read"`   // when the inputs were looked at
 	BundleID string          `json:"bundle_id"`
-	Manifest string          `json:"manifest"` // SHA-256 of manifest.json as written
-	Summary  json.RawMessage `json:"summary"`  // the build's summary, for printing again
+	Manifest string          `json:"manifest"`           // SHA-256 of manifest.json as written
+	Summary  json.RawMessage `json:"summary"`            // the build's summary, for printing again
 	Problems []string        `json:"problems,omitempty"` // its path:line lines, likewise
 }
 

@@ -190,6 +190,12 @@ type session struct {
 
 	cache *build.Cache
 	prior *bundle.Prior // the bundle last written; nil: read it from out
+
+	// The source commit, when already asked of git for this build (watch
+	// asks again for each rebuild, as commits may land while it runs).
+	commit      string
+	dirty       bool
+	commitKnown bool
 }
 
 // cacheFor returns the build cache for these settings: the one in memory
@@ -245,7 +251,10 @@ func writeBundle(sess *session, src string, res *build.Result, opts build.Option
 	if err != nil {
 		return nil, nil, err
 	}
-	commit, dirty := build.SourceCommit(src)
+	commit, dirty := sess.commit, sess.dirty
+	if !sess.commitKnown {
+		commit, dirty = build.SourceCommit(src)
+	}
 	st := res.Stats
 	in := &bundle.Input{
 		Passages: res.Passages,
@@ -303,8 +312,7 @@ func runBuild(args []string, stdout, stderr io.Writer) int {
 			"come from SRC/kbc.toml when present; flags override it. A failed gate exits 3\n"+
 			"after the bundle is written.",
 		"kbc build docs -o out/docs-bundle --exclude 'drafts/**' --max-stale 10%", stderr)
-	out := fs.String("o", "", "bundle folder to write (required)")
-	fs.StringVar(out, "out", "", "same as -o")
+	out := addOutFlag(fs)
 	strict := fs.Bool("strict", false, "treat any bad input file as fatal: exit 1, write no bundle")
 	asJSON := fs.Bool("json", false, "print the summary as JSON")
 	sf := addSourceFlags(fs)
@@ -312,13 +320,10 @@ func runBuild(args []string, stdout, stderr io.Writer) int {
 	if code >= 0 {
 		return code
 	}
-	if len(pos) != 1 {
-		return badUsage(fs, stderr, "want one source folder, got %d arguments", len(pos))
+	src, code := srcAndOut(fs, pos, *out, stderr)
+	if code >= 0 {
+		return code
 	}
-	if *out == "" {
-		return badUsage(fs, stderr, "missing -o OUT")
-	}
-	src := pos[0]
 	builtAt, err := buildTime(os.Getenv("SOURCE_DATE_EPOCH"), time.Now)
 	if err != nil {
 		return badUsage(fs, stderr, "%v", err)
@@ -327,11 +332,13 @@ func runBuild(args []string, stdout, stderr io.Writer) int {
 	start := time.Now()
 	// A bundle whose inputs have not changed since it was built is left as
 	// it is, as make would, once its files check out against its manifest.
+	sess := &session{out: *out}
+	sess.commit, sess.dirty = build.SourceCommit(src)
+	sess.commitKnown = true
 	var inputs string
 	looked := time.Now()
 	if opts, g, err := sf.options(src); err == nil && !*strict {
-		commit, dirty := build.SourceCommit(src)
-		extra := fmt.Sprintf("%s\x00%s %t\x00%s", version, commit, dirty, os.Getenv("SOURCE_DATE_EPOCH"))
+		extra := fmt.Sprintf("%s\x00%s %t\x00%s", version, sess.commit, sess.dirty, os.Getenv("SOURCE_DATE_EPOCH"))
 		var newest time.Time
 		inputs, newest = build.InputsDigest(os.DirFS(src), opts, extra)
 		if code, ok := upToDate(*out, inputs, newest, g, *asJSON, start, stdout, stderr); ok {
@@ -340,7 +347,6 @@ func runBuild(args []string, stdout, stderr io.Writer) int {
 	}
 	ctx, stop := interrupted()
 	defer stop()
-	sess := &session{out: *out}
 	res, opts, g, code := compile(ctx, fs, sf, src, sess, builtAt, stderr)
 	if code >= 0 {
 		return code

@@ -72,3 +72,23 @@ func badUsage(fs *flag.FlagSet, stderr io.Writer, format string, args ...any) in
 	fmt.Fprintf(stderr, "Run \"kbc %s --help\" for usage.\n", fs.Name())
 	return exitUsage
 }
+
+// addOutFlag registers -o/--out, the bundle folder a command writes.
+func addOutFlag(fs *flag.FlagSet) *string {
+	out := fs.String("o", "", "bundle folder to write (required)")
+	fs.StringVar(out, "out", "", "same as -o")
+	return out
+}
+
+// srcAndOut checks the positional arguments of a command that reads one
+// source folder into the bundle folder out. It returns the source folder,
+// and the exit code to stop with (-1 to go on).
+func srcAndOut(fs *flag.FlagSet, pos []string, out string, stderr io.Writer) (string, int) {
+	if len(pos) != 1 {
+		return "", badUsage(fs, stderr, "want one source folder, got %d arguments", len(pos))
+	}
+	if out == "" {
+		return "", badUsage(fs, stderr, "missing -o OUT")
+	}
+	return pos[0], -1
+}

@@ -32,8 +32,7 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 			"path:line and the last good bundle stays. Ctrl-C stops it; the last complete\n"+
 			"bundle is left in OUT.",
 		"kbc watch docs -o /tmp/docs-bundle --debounce 300ms", stderr)
-	out := fs.String("o", "", "bundle folder to write (required)")
-	fs.StringVar(out, "out", "", "same as -o")
+	out := addOutFlag(fs)
 	debounce := fs.Duration("debounce", watch.DefaultDebounce, "quiet period after the last change before a rebuild")
 	serve := fs.String("serve", "", "serve a live preview page on ADDR (host:port, loopback only unless --serve-any)")
 	serveAny := fs.Bool("serve-any", false, "allow --serve on an address other than loopback")
@@ -42,13 +41,10 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 	if code >= 0 {
 		return code
 	}
-	if len(pos) != 1 {
-		return badUsage(fs, stderr, "want one source folder, got %d arguments", len(pos))
+	src, code := srcAndOut(fs, pos, *out, stderr)
+	if code >= 0 {
+		return code
 	}
-	if *out == "" {
-		return badUsage(fs, stderr, "missing -o OUT")
-	}
-	src := pos[0]
 	var ln net.Listener
 	if *serve != "" {
 		if err := checkServeAddr(*serve, *serveAny); err != nil {
