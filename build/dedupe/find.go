@@ -226,7 +226,7 @@ func (f *finder) hash() {
 			var tk uint64
 			if o.Memo != nil {
 				tk = textKey(text)
-				if e := o.Memo.get(tk); e != nil {
+				if e := o.Memo.get(tk); e != nil && e.fits(f.b) {
 					f.exact[i], f.count[i], f.kind[i] = e.exact, e.count, e.kind
 					for band, k := range e.keys {
 						f.keys[band][i] = k
@@ -290,7 +290,7 @@ func (f *finder) groupExact() {
 		}
 	}
 	var tmp []entry
-	if len(ents) >= 1<<14 {
+	if len(ents) >= radixMin {
 		tmp = make([]entry, len(ents))
 	}
 	ents = sortEntries(ents, tmp)
@@ -361,7 +361,7 @@ func (f *finder) band(band int, s *lshScratch) {
 	for _, id := range f.lshIDs {
 		s.ents = append(s.ents, entry{keys[id], id})
 	}
-	if len(s.ents) >= 1<<14 && len(s.tmp) < len(s.ents) {
+	if len(s.ents) >= radixMin && len(s.tmp) < len(s.ents) {
 		s.tmp = make([]entry, len(s.ents))
 	}
 	ents := sortEntries(s.ents, s.tmp)

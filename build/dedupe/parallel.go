@@ -1,6 +1,7 @@
 package dedupe
 
 import (
+	"math/bits"
 	"slices"
 	"sync"
 	"sync/atomic"
@@ -81,20 +82,24 @@ func cmpEntry(a, b entry) int {
 	return 0
 }
 
-// radixBits is the number of high key bits sortEntries partitions by.
-const radixBits = 16
+// radixMin is the least number of entries sortEntries partitions by radix
+// rather than sorting by comparison.
+const radixMin = 1 << 8
 
-// sortEntries sorts e by key, then id. Large inputs of uniform keys (hashes)
-// are partitioned by the top radixBits of the key in one counting pass into
-// tmp, and each small partition is then sorted on its own: two passes over
-// the data instead of log n. It returns the sorted slice, which is either e
-// or tmp[:len(e)]; tmp must have room for len(e) entries.
+// sortEntries sorts e by key, then id. Inputs of radixMin entries or more,
+// of uniform keys (hashes), are partitioned by the top bits of the key in
+// one counting pass into tmp, about one entry per partition, and each small
+// partition is then sorted on its own: two passes over the data instead of
+// log n comparisons per entry. It returns the sorted slice, which is
+// either e or tmp[:len(e)]; tmp must have room for len(e) entries when
+// len(e) >= radixMin.
 func sortEntries(e, tmp []entry) []entry {
-	if len(e) < 1<<14 {
+	if len(e) < radixMin {
 		slices.SortFunc(e, cmpEntry)
 		return e
 	}
-	var start [1<<radixBits + 1]int32
+	radixBits := min(bits.Len(uint(len(e))), 16)
+	start := make([]int32, 1<<radixBits+1)
 	for _, x := range e {
 		start[x.key>>(64-radixBits)+1]++
 	}
@@ -102,7 +107,7 @@ func sortEntries(e, tmp []entry) []entry {
 		start[i] += start[i-1]
 	}
 	out := tmp[:len(e)]
-	pos := start
+	pos := slices.Clone(start)
 	for _, x := range e {
 		p := x.key >> (64 - radixBits)
 		out[pos[p]] = x
