@@ -109,24 +109,54 @@ func NewBoilerplate(counts map[BlockKey]int, pages int, s Settings) *Boilerplate
 
 // Describe fills in the text and example page of each entry from docs: the
 // first document in path order that holds the block. Documents without
-// boilerplate may be left out. Describe changes b, so it must finish before
+// boilerplate may be left out, and docs may come in several calls in path
+// order, the earliest first. Describe changes b, so it must finish before
 // b is shared between goroutines.
 func (b *Boilerplate) Describe(docs []*sources.Document) {
 	if len(b.pages) == 0 {
 		return
 	}
+	// In path order, a document can only describe entries no earlier one
+	// did, and the walk stops once all are described: usually after a page
+	// or two, instead of hashing every block of every page.
+	docs = slices.Clone(docs)
+	sortByPath(docs)
+	left := 0
+	for _, e := range b.entries {
+		if e.Example == "" {
+			left++
+		}
+	}
 	for _, d := range docs {
+		if left == 0 {
+			break
+		}
 		for i := range d.Blocks {
 			bl := &d.Blocks[i]
 			if !counted(bl) {
 				continue
 			}
-			e := b.entries[keyOf(bl.Text)]
-			if e != nil && (e.Example == "" || d.Path < e.Example) {
+			if e := b.entries[keyOf(bl.Text)]; e != nil && e.Example == "" {
 				e.Example, e.Text = d.Path, bl.Text
+				left--
 			}
 		}
 	}
+}
+
+// Described reports whether every entry has its text and example page, so
+// that Describe has nothing left to do.
+func (b *Boilerplate) Described() bool {
+	for _, e := range b.entries {
+		if e.Example == "" {
+			return false
+		}
+	}
+	return true
+}
+
+func sortByPath(docs []*sources.Document) {
+	slices.SortFunc(docs, func(a, b *sources.Document) int { return strings.Compare(a.Path, b.Path) })
 }
 
 // Has reports whether blocks with key k are boilerplate. A cached split of

@@ -5,6 +5,7 @@ import (
 	"encoding/binary"
 	"encoding/hex"
 	"encoding/json"
+	"runtime"
 	"sort"
 	"sync"
 	"time"
@@ -13,54 +14,66 @@ import (
 	"github.com/kbc-project/kbc/sources"
 )
 
-// CacheFormat is the version of the Cache layout; a cache of another
-// format is discarded.
-const CacheFormat = 1
-
 // Cache holds the per-document results of earlier builds, so that a
 // rebuild re-reads only what changed: a file whose content hash matches
 // its entry is not parsed again, and its passages are not split again
 // while the boilerplate found on it is the same. A Cache is valid only
-// for the tool version and settings it was made with (Key); Run discards
-// the entries of one made with others. Run may use a Cache from several
-// goroutines; callers must not use it during a Run.
+// for the tool version and settings it was made with (its key); Run
+// discards the entries of one made with others. Run may use a Cache from
+// several goroutines; callers must not use it during a Run. LoadCache and
+// Save keep it in a folder between processes.
 type Cache struct {
-	Format  int
-	Key     string // tool version and settings digest
-	Entries map[string]*CacheEntry
-	// Dedupe is the duplicate stage's last outcome, reused when its whole
+	key     string // tool version and settings digest
+	entries map[string]*CacheEntry
+	// dedupe is the duplicate stage's last outcome, reused when its whole
 	// input is the same.
-	Dedupe *DedupeMemo
+	dedupe *DedupeMemo
 
-	mu      sync.Mutex
-	changed bool
-	// memos keep the duplicate search's per-text hashing between builds
-	// that share this Cache in memory (watch mode); they are not saved.
+	mu sync.Mutex
+	// dirty holds the paths whose entries changed since the cache was
+	// loaded or saved; all means every entry must be written.
+	dirty map[string]bool
+	all   bool
+	// state is set when the duplicate stage's memos changed.
+	state bool
+	// memos keep the duplicate search's per-text hashing between builds:
+	// in memory in watch mode, and saved with the cache.
 	memos [2]*dedupe.Memo   // real text, masked text
-	masks map[string]string // passage text hash -> masked text, same lifetime
+	masks map[string]string // passage text hash -> masked text, in memory only
 }
 
-// masked returns maskFigures of each passage's text, remembering the
-// results in memory for the next build that shares this Cache.
+// masked returns maskFigures of each passage's text, on several
+// goroutines, remembering the results in memory for the next build that
+// shares this Cache.
 func (c *Cache) masked(ps []Passage) []string {
 	out := make([]string, len(ps))
-	if c == nil {
+	var known map[string]string
+	if c != nil {
+		c.mu.Lock()
+		defer c.mu.Unlock()
+		known = c.masks
+	}
+	workers := runtime.GOMAXPROCS(0)
+	var wg sync.WaitGroup
+	for w := range workers {
+		wg.Go(func() {
+			for i := w; i < len(ps); i += workers {
+				m, ok := known[ps[i].Hash]
+				if !ok {
+					m = maskFigures(ps[i].Text)
+				}
+				out[i] = m
+			}
+		})
+	}
+	wg.Wait()
+	if c != nil {
+		next := make(map[string]string, len(ps))
 		for i := range ps {
-			out[i] = maskFigures(ps[i].Text)
+			next[ps[i].Hash] = out[i]
 		}
-		return out
+		c.masks = next
 	}
-	c.mu.Lock()
-	defer c.mu.Unlock()
-	next := make(map[string]string, len(ps))
-	for i := range ps {
-		m, ok := c.masks[ps[i].Hash]
-		if !ok {
-			m = maskFigures(ps[i].Text)
-		}
-		out[i], next[ps[i].Hash] = m, m
-	}
-	c.masks = next
 	return out
 }
 
@@ -74,6 +87,7 @@ func (c *Cache) memo(which int) *dedupe.Memo {
 	if c.memos[which] == nil {
 		c.memos[which] = &dedupe.Memo{}
 	}
+	c.state = true // Find updates it
 	return c.memos[which]
 }
 
@@ -83,17 +97,19 @@ type CacheEntry struct {
 	Size      int64             // the file's size and modification time when
 	ModTime   time.Time         // it was read: unchanged, they vouch for Hash
 	Checked   time.Time         // when the bytes were read and hashed
-	Doc       *sources.Document // normalised; Front travels in FrontJSON
+	Doc       *sources.Document // normalised, without Blocks; Front travels in FrontJSON
+	Blocks    int               // len(Doc.Blocks) before they were left out
 	FrontJSON []byte            // the document's front matter as JSON
 	Keys      []BlockKey        // BlockKeys(Doc)
 	Fail      *sources.Error    // why the file was left out, instead of Doc
 	Boiler    string            // digest of the Keys that were boilerplate when Passages were made
 	Passages  []Passage         // Split's result, before dates are stamped
+	Dropped   int               // boilerplate blocks left out of Passages
 }
 
 // NewCache returns an empty cache for the given tool version and settings.
 func NewCache(tool string, s Settings) *Cache {
-	return &Cache{Format: CacheFormat, Key: cacheKey(tool, s), Entries: map[string]*CacheEntry{}}
+	return &Cache{key: cacheKey(tool, s), entries: map[string]*CacheEntry{}, dirty: map[string]bool{}, all: true}
 }
 
 func cacheKey(tool string, s Settings) string {
@@ -105,16 +121,20 @@ func cacheKey(tool string, s Settings) string {
 // Fits reports whether c was made by this tool version with these
 // settings, so its entries can be trusted.
 func (c *Cache) Fits(tool string, s Settings) bool {
-	return c != nil && c.Format == CacheFormat && c.Key == cacheKey(tool, s) && c.Entries != nil
+	return c != nil && c.key == cacheKey(tool, s) && c.entries != nil
 }
 
-// Changed reports whether the last Run added, replaced or dropped an
-// entry, that is whether the cache needs writing back.
+// Changed reports whether a Run since the cache was loaded or saved
+// added, replaced or dropped an entry or changed the duplicate stage's
+// memos, that is whether the cache needs saving.
 func (c *Cache) Changed() bool {
 	c.mu.Lock()
 	defer c.mu.Unlock()
-	return c.changed
+	return c.all || c.state || len(c.dirty) > 0
 }
+
+// touch marks path's entry as changed; c.mu must be held.
+func (c *Cache) touch(path string) { c.dirty[path] = true }
 
 // lookup returns the entry for path when its content hash is hash.
 func (c *Cache) lookup(path, hash string) *CacheEntry {
@@ -123,7 +143,7 @@ func (c *Cache) lookup(path, hash string) *CacheEntry {
 	}
 	c.mu.Lock()
 	defer c.mu.Unlock()
-	e := c.Entries[path]
+	e := c.entries[path]
 	if e == nil || e.Hash != hash || (e.Doc == nil && e.Fail == nil) {
 		return nil
 	}
@@ -149,7 +169,7 @@ func (c *Cache) unchanged(f sources.File) *CacheEntry {
 	}
 	c.mu.Lock()
 	defer c.mu.Unlock()
-	e := c.Entries[f.Path]
+	e := c.entries[f.Path]
 	if e == nil || (e.Doc == nil && e.Fail == nil) || e.Size != f.Size || !e.ModTime.Equal(f.ModTime) ||
 		!e.ModTime.Before(e.Checked.Add(-racyWindow)) {
 		return nil
@@ -165,14 +185,17 @@ func (c *Cache) seen(f sources.File) {
 	}
 	c.mu.Lock()
 	defer c.mu.Unlock()
-	if e := c.Entries[f.Path]; e != nil && (!e.ModTime.Equal(f.ModTime) || e.Size != f.Size || !e.ModTime.Before(e.Checked.Add(-racyWindow))) {
+	if e := c.entries[f.Path]; e != nil && (!e.ModTime.Equal(f.ModTime) || e.Size != f.Size || !e.ModTime.Before(e.Checked.Add(-racyWindow))) {
 		e.Size, e.ModTime, e.Checked = f.Size, f.ModTime, time.Now()
-		c.changed = true
+		c.touch(f.Path)
 	}
 }
 
 // document returns a fresh copy of the entry's document, with its front
-// matter decoded and the file time of this build.
+// matter decoded and the file time of this build. Its Blocks are nil: the
+// passages made from them are cached, and a build that needs the blocks
+// again (the boilerplate on the page changed) reads the file again
+// (withBlocks).
 func (e *CacheEntry) document(f sources.File) (*sources.Document, bool) {
 	d := *e.Doc
 	d.Front = nil
@@ -192,8 +215,8 @@ func (c *Cache) storeFail(file sources.File, hash string, fail *sources.Error) {
 	f := *fail
 	f.Err = nil
 	c.mu.Lock()
-	c.Entries[file.Path] = &CacheEntry{Hash: hash, Size: file.Size, ModTime: file.ModTime, Checked: time.Now(), Fail: &f}
-	c.changed = true
+	c.entries[file.Path] = &CacheEntry{Hash: hash, Size: file.Size, ModTime: file.ModTime, Checked: time.Now(), Fail: &f}
+	c.touch(file.Path)
 	c.mu.Unlock()
 }
 
@@ -203,8 +226,11 @@ func (c *Cache) store(file sources.File, hash string, d *sources.Document, keys 
 		return
 	}
 	path := file.Path
-	e := &CacheEntry{Hash: hash, Size: file.Size, ModTime: file.ModTime, Checked: time.Now(), Keys: keys}
+	e := &CacheEntry{Hash: hash, Size: file.Size, ModTime: file.ModTime, Checked: time.Now(), Keys: keys, Blocks: len(d.Blocks)}
 	doc := *d
+	// The text is kept once, in the passages: blocks are as much text
+	// again, and the cache is read whole by every build.
+	doc.Blocks = nil
 	if len(doc.Front) > 0 {
 		e.FrontJSON, _ = json.Marshal(doc.Front)
 	}
@@ -222,35 +248,36 @@ func (c *Cache) store(file sources.File, hash string, d *sources.Document, keys 
 	}
 	e.Doc = &doc
 	c.mu.Lock()
-	c.Entries[path] = e
-	c.changed = true
+	c.entries[path] = e
+	c.touch(path)
 	c.mu.Unlock()
 }
 
-// passages returns the cached split of path when the boilerplate on it is
-// the same as when it was made.
-func (c *Cache) passages(path, boiler string) ([]Passage, bool) {
+// passages returns the cached split of path, and the number of
+// boilerplate blocks it left out, when the boilerplate on the page is the
+// same as when it was made.
+func (c *Cache) passages(path, boiler string) ([]Passage, int, bool) {
 	if c == nil {
-		return nil, false
+		return nil, 0, false
 	}
 	c.mu.Lock()
 	defer c.mu.Unlock()
-	e := c.Entries[path]
+	e := c.entries[path]
 	if e == nil || e.Passages == nil || e.Boiler != boiler {
-		return nil, false
+		return nil, 0, false
 	}
-	return append([]Passage(nil), e.Passages...), true
+	return append([]Passage(nil), e.Passages...), e.Dropped, true
 }
 
-func (c *Cache) storePassages(path, boiler string, ps []Passage) {
+func (c *Cache) storePassages(path, boiler string, ps []Passage, dropped int) {
 	if c == nil {
 		return
 	}
 	c.mu.Lock()
 	defer c.mu.Unlock()
-	if e := c.Entries[path]; e != nil {
-		e.Boiler, e.Passages = boiler, append([]Passage{}, ps...)
-		c.changed = true
+	if e := c.entries[path]; e != nil {
+		e.Boiler, e.Passages, e.Dropped = boiler, append([]Passage{}, ps...), dropped
+		c.touch(path)
 	}
 }
 
@@ -261,10 +288,10 @@ func (c *Cache) keep(paths map[string]bool) {
 	}
 	c.mu.Lock()
 	defer c.mu.Unlock()
-	for p := range c.Entries {
+	for p := range c.entries {
 		if !paths[p] {
-			delete(c.Entries, p)
-			c.changed = true
+			delete(c.entries, p)
+			c.touch(p)
 		}
 	}
 }
@@ -303,8 +330,8 @@ func (c *Cache) dedupeMemo(digest string) *DedupeMemo {
 	}
 	c.mu.Lock()
 	defer c.mu.Unlock()
-	if c.Dedupe != nil && c.Dedupe.Digest == digest {
-		return c.Dedupe
+	if c.dedupe != nil && c.dedupe.Digest == digest {
+		return c.dedupe
 	}
 	return nil
 }
@@ -314,6 +341,6 @@ func (c *Cache) storeDedupe(m *DedupeMemo) {
 		return
 	}
 	c.mu.Lock()
-	c.Dedupe, c.changed = m, true
+	c.dedupe, c.state = m, true
 	c.mu.Unlock()
 }

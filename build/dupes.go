@@ -82,27 +82,28 @@ type DuplicateReport struct {
 // text each changed figure breaks five shingles, so such pairs often fall
 // below the threshold in short passages and would never be compared.
 func maskFigures(s string) string {
-	if strings.IndexAny(s, "0123456789") < 0 {
+	k := strings.IndexAny(s, "0123456789")
+	if k < 0 {
 		return s
 	}
 	var b strings.Builder
 	b.Grow(len(s))
-	for i := 0; i < len(s); {
-		j := i
-		for j < len(s) && !asciiSpace(s[j]) {
-			j++
+	at := 0 // s[:at] is done; at is 0 or just past a masked word
+	for k >= 0 {
+		k += at
+		start, end := k, k+1
+		for start > at && !asciiSpace(s[start-1]) {
+			start--
 		}
-		if word := s[i:j]; strings.IndexAny(word, "0123456789") >= 0 {
-			b.WriteByte('0')
-		} else {
-			b.WriteString(word)
+		for end < len(s) && !asciiSpace(s[end]) {
+			end++
 		}
-		for j < len(s) && asciiSpace(s[j]) {
-			b.WriteByte(s[j])
-			j++
-		}
-		i = j
+		b.WriteString(s[at:start])
+		b.WriteByte('0')
+		at = end
+		k = strings.IndexAny(s[at:], "0123456789")
 	}
+	b.WriteString(s[at:])
 	return b.String()
 }
 

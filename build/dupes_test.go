@@ -59,10 +59,50 @@ func TestConflicts(t *testing.T) {
 }
 
 func TestMaskFigures(t *testing.T) {
-	got := maskFigures("checked every 30 days\nby v1.2 (or 2026-01-04) tools")
-	if want := "checked every 0 days\nby 0 (or 0 tools"; got != want {
-		t.Errorf("maskFigures = %q, want %q", got, want)
+	for in, want := range map[string]string{
+		"checked every 30 days\nby v1.2 (or 2026-01-04) tools": "checked every 0 days\nby 0 (or 0 tools",
+		"":               "",
+		"no figures":     "no figures",
+		"7":              "0",
+		" 7 a9\t\tb 10 ": " 0 0\t\tb 0 ",
+	} {
+		if got := maskFigures(in); got != want {
+			t.Errorf("maskFigures(%q) = %q, want %q", in, got, want)
+		}
 	}
+}
+
+// maskWords is maskFigures written the plain way, word by word, to check
+// the fast one against.
+func maskWords(s string) string {
+	var b strings.Builder
+	for i := 0; i < len(s); {
+		j := i
+		for j < len(s) && !asciiSpace(s[j]) {
+			j++
+		}
+		if word := s[i:j]; strings.ContainsAny(word, "0123456789") {
+			b.WriteByte('0')
+		} else {
+			b.WriteString(word)
+		}
+		for j < len(s) && asciiSpace(s[j]) {
+			b.WriteByte(s[j])
+			j++
+		}
+		i = j
+	}
+	return b.String()
+}
+
+func FuzzMaskFigures(f *testing.F) {
+	f.Add("checked every 30 days\nby v1.2 (or 2026-01-04) tools")
+	f.Add(" 7 a9\t\tb 10 ")
+	f.Fuzz(func(t *testing.T, s string) {
+		if got, want := maskFigures(s), maskWords(s); got != want {
+			t.Errorf("maskFigures(%q) = %q, want %q", s, got, want)
+		}
+	})
 }
 
 // TestDedupePassagesKeepsParallelSections: sections that share a shape

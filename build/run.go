@@ -8,7 +8,9 @@ import (
 	"fmt"
 	"io/fs"
 	"runtime"
+	"slices"
 	"sort"
+	"strings"
 	"sync/atomic"
 	"time"
 
@@ -71,10 +73,9 @@ type Stats struct {
 // Result is everything one build produced, sorted so that the same input
 // always gives the same result.
 type Result struct {
-	Documents   []*sources.Document // by path
-	Passages    []Passage           // by path, then line
-	Boilerplate []BoilerplateEntry  // most pages first
-	Problems    []*sources.Error    // every bad input, by path and line
+	Passages    []Passage          // by path, then line
+	Boilerplate []BoilerplateEntry // most pages first
+	Problems    []*sources.Error   // every bad input, by path and line
 	Staleness   *StalenessReport
 	Duplicates  *DuplicateReport
 	Stats       Stats
@@ -131,6 +132,7 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 	fails := make([]*sources.Error, len(files))
 	reused := make([]bool, len(files))
 	keys := make([][]BlockKey, len(files))
+	blocks := make([]int, len(files)) // a document from the cache has none in hand
 	var done atomic.Int64
 	g, gctx := errgroup.WithContext(ctx)
 	g.SetLimit(workers)
@@ -139,7 +141,7 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 			if err := gctx.Err(); err != nil {
 				return err
 			}
-			docs[i], keys[i], reused[i], fails[i] = readDocument(fsys, f, opts.Walk.MaxSize, opts.Cache)
+			docs[i], keys[i], blocks[i], reused[i], fails[i] = readDocument(fsys, f, opts.Walk.MaxSize, opts.Cache)
 			if opts.Progress != nil {
 				opts.Progress(int(done.Add(1)), len(files))
 			}
@@ -149,8 +151,12 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 	if err := g.Wait(); err != nil {
 		return nil, err
 	}
-	kept := docs[:0]
-	keptKeys := keys[:0]
+	var (
+		kept       []*sources.Document
+		keptKeys   [][]BlockKey
+		keptFiles  []sources.File
+		keptBlocks []int
+	)
 	present := make(map[string]bool, len(files))
 	for i, d := range docs {
 		present[files[i].Path] = true
@@ -164,13 +170,18 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 		}
 		res.Problems = append(res.Problems, d.Warnings...)
 		res.Stats.SourceBytes += d.Size
-		if len(d.Blocks) == 0 {
+		if blocks[i] == 0 {
 			res.Stats.Empty++
 		}
-		kept = append(kept, d)
-		keptKeys = append(keptKeys, keys[i])
+		kept, keptKeys = append(kept, d), append(keptKeys, keys[i])
+		keptFiles, keptBlocks = append(keptFiles, files[i]), append(keptBlocks, blocks[i])
 	}
-	docs, keys = kept, keptKeys
+	docs, keys, files, blocks = kept, keptKeys, keptFiles, keptBlocks
+	// full returns document i with its blocks, reading it again when it
+	// came from the cache.
+	full := func(i int) (*sources.Document, *sources.Error) {
+		return withBlocks(fsys, files[i], docs[i], blocks[i], opts.Walk.MaxSize)
+	}
 	res.Stats.Skipped += len(walkErrs)
 
 	opts.Cache.keep(present)
@@ -204,16 +215,23 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 	}
 	bp := NewBoilerplate(counts, len(docs), s)
 	if bp.Len() > 0 {
-		var with []*sources.Document // only pages that hold some boilerplate
-		for i, d := range docs {
-			for _, k := range keys[i] {
-				if bp.Has(k) {
-					with = append(with, d)
-					break
-				}
+		var with []int // only pages that hold some boilerplate
+		for i := range docs {
+			if slices.ContainsFunc(keys[i], bp.Has) {
+				with = append(with, i)
 			}
 		}
-		bp.Describe(with)
+		// In path order, one page at a time: a page or two usually
+		// describe every entry, and only those are read again.
+		slices.SortFunc(with, func(a, b int) int { return strings.Compare(docs[a].Path, docs[b].Path) })
+		for _, i := range with {
+			if bp.Described() {
+				break
+			}
+			if d, fail := full(i); fail == nil {
+				bp.Describe([]*sources.Document{d})
+			}
+		}
 	}
 	res.Boilerplate = bp.Entries()
 
@@ -221,6 +239,7 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 	// which inherit their document's dates and owner.
 	parts := make([][]Passage, len(docs))
 	dropped := make([]int, len(docs))
+	lost := make([]*sources.Error, len(docs)) // could not be read again
 	g, gctx = errgroup.WithContext(ctx)
 	g.SetLimit(workers)
 	for i, d := range docs {
@@ -228,17 +247,22 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 			if err := gctx.Err(); err != nil {
 				return err
 			}
-			var clean *sources.Document
-			clean, dropped[i] = bp.Strip(d)
 			var digest string
 			ok := false
 			if opts.Cache != nil {
 				digest = boilerDigest(keys[i], bp)
-				parts[i], ok = opts.Cache.passages(d.Path, digest)
+				parts[i], dropped[i], ok = opts.Cache.passages(d.Path, digest)
 			}
 			if !ok {
+				d, fail := full(i)
+				if fail != nil {
+					lost[i] = fail
+					return nil
+				}
+				var clean *sources.Document
+				clean, dropped[i] = bp.Strip(d)
 				parts[i] = Split(clean, tok, s)
-				opts.Cache.storePassages(d.Path, digest, parts[i])
+				opts.Cache.storePassages(d.Path, digest, parts[i], dropped[i])
 			}
 			for j := range parts[i] {
 				stamp(&parts[i][j], infos[i])
@@ -250,6 +274,9 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 		return nil, err
 	}
 	for i := range docs {
+		if lost[i] != nil {
+			res.Problems = append(res.Problems, lost[i])
+		}
 		res.Stats.BoilerplateDropped += dropped[i]
 		for _, p := range parts[i] {
 			res.Stats.Tokens += p.Tokens
@@ -259,7 +286,6 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 		}
 		res.Passages = append(res.Passages, parts[i]...)
 	}
-	res.Documents = docs
 	sortPassages(res.Passages)
 
 	// Stage 5: keep one passage per group of copies.
@@ -287,20 +313,22 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 
 // readDocument reads, parses and normalises one file, or takes it from
 // the cache when its bytes are unchanged (reported by reused), and returns
-// its block keys. A nil document comes with the error that kept it out.
-func readDocument(fsys fs.FS, f sources.File, maxSize int64, cache *Cache) (doc *sources.Document, keys []BlockKey, reused bool, _ *sources.Error) {
+// its block keys and the number of its blocks (a document from the cache
+// comes without them; see withBlocks). A nil document comes with the error
+// that kept it out.
+func readDocument(fsys fs.FS, f sources.File, maxSize int64, cache *Cache) (doc *sources.Document, keys []BlockKey, blocks int, reused bool, _ *sources.Error) {
 	if e := cache.unchanged(f); e != nil {
 		if e.Fail != nil {
 			fail := *e.Fail
-			return nil, nil, true, &fail
+			return nil, nil, 0, true, &fail
 		}
 		if d, ok := e.document(f); ok {
-			return d, e.Keys, true, nil
+			return d, e.Keys, e.Blocks, true, nil
 		}
 	}
 	data, rerr := sources.ReadFile(fsys, f, maxSize)
 	if rerr != nil {
-		return nil, nil, false, rerr
+		return nil, nil, 0, false, rerr
 	}
 	var hash string
 	if cache != nil {
@@ -310,33 +338,63 @@ func readDocument(fsys fs.FS, f sources.File, maxSize int64, cache *Cache) (doc 
 			cache.seen(f)
 			if e.Fail != nil {
 				fail := *e.Fail
-				return nil, nil, true, &fail
+				return nil, nil, 0, true, &fail
 			}
 			if d, ok := e.document(f); ok {
-				return d, e.Keys, true, nil
+				return d, e.Keys, e.Blocks, true, nil
 			}
 		}
 	}
+	doc, fail := parseDocument(f, data)
+	if fail != nil {
+		cache.storeFail(f, hash, fail)
+		return nil, nil, 0, false, fail
+	}
+	keys = BlockKeys(doc)
+	cache.store(f, hash, doc, keys)
+	return doc, keys, len(doc.Blocks), false, nil
+}
+
+// parseDocument parses and normalises the bytes of the file f.
+func parseDocument(f sources.File, data []byte) (*sources.Document, *sources.Error) {
 	doc, err := sources.Parse(f.Path, data)
 	if err != nil {
 		pe, ok := err.(*sources.Error)
 		if !ok {
 			pe = &sources.Error{Path: f.Path, Msg: err.Error(), Err: err}
 		}
-		cache.storeFail(f, hash, pe)
-		return nil, nil, false, pe
+		return nil, pe
 	}
 	doc.ModTime = f.ModTime.UTC()
 	hadText := len(doc.Blocks) > 0
 	Normalize(doc)
 	if hadText && len(doc.Blocks) == 0 {
-		fail := sources.ErrNoText(f.Path)
-		cache.storeFail(f, hash, fail)
-		return nil, nil, false, fail
+		return nil, sources.ErrNoText(f.Path)
 	}
-	keys = BlockKeys(doc)
-	cache.store(f, hash, doc, keys)
-	return doc, keys, false, nil
+	return doc, nil
+}
+
+// withBlocks returns d with its blocks: d itself when it has them or has
+// none (blocks is 0), else a copy with the blocks of the file read and
+// parsed again. The file must still hold the bytes d was made from; when
+// it changed after the build read it, the error says so, and the caller
+// leaves the document's passages out of this build (the next one reads
+// the new bytes).
+func withBlocks(fsys fs.FS, f sources.File, d *sources.Document, blocks int, maxSize int64) (*sources.Document, *sources.Error) {
+	if len(d.Blocks) > 0 || blocks == 0 {
+		return d, nil
+	}
+	data, fail := sources.ReadFile(fsys, f, maxSize)
+	if fail != nil {
+		return nil, fail
+	}
+	again, fail := parseDocument(f, data)
+	if fail != nil || again.Hash != d.Hash {
+		return nil, &sources.Error{Path: f.Path, Msg: "changed while the build ran; its passages are left out of this bundle (build again)"}
+	}
+	cp := *d
+	cp.Blocks = again.Blocks
+	return &cp, nil
 }
 
 // stamp copies a document's freshness onto one of its passages.

@@ -2,7 +2,9 @@ package build
 
 import (
 	"context"
+	"fmt"
 	"io/fs"
+	"reflect"
 	"strings"
 	"testing"
 	"testing/fstest"
@@ -100,5 +102,77 @@ func TestCacheTrustsOnlySettledFiles(t *testing.T) {
 	}
 	if res.Stats.Reused != 1 {
 		t.Errorf("reused %d documents, want 1 (the settled one)", res.Stats.Reused)
+	}
+}
+
+// TestCachedPagesReadAgain: the cache keeps no block text, so when the
+// boilerplate on a cached page changes (here new pages make a footer cross
+// the share that marks it boilerplate) the page is read and split again,
+// and the result equals a clean run's. A page whose bytes changed behind
+// the cache's back (same size, same time) is left out with a problem
+// instead of being split from text it no longer holds.
+func TestCachedPagesReadAgain(t *testing.T) {
+	old := time.Now().Add(-time.Hour)
+	footer := "Questions about this page go to the depot desk on channel nine."
+	fsys := fstest.MapFS{}
+	page := func(i int, withFooter bool) *fstest.MapFile {
+		text := fmt.Sprintf("# Bay %d\n\nTrailer bay %d is swept every morning before the first reefer arrives.\n", i, i)
+		if withFooter {
+			text += "\n" + footer + "\n"
+		}
+		return &fstest.MapFile{Data: []byte(text), ModTime: old}
+	}
+	for i := range 10 {
+		fsys[fmt.Sprintf("bay%02d.md", i)] = page(i, i < 2) // 2 of 10: not boilerplate
+	}
+	opts := DefaultOptions()
+	opts.Cache = NewCache("test", opts.Settings)
+	first, err := Run(context.Background(), fsys, opts)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if first.Stats.BoilerplateDropped != 0 {
+		t.Fatalf("the footer on 2 of 10 pages was dropped as boilerplate")
+	}
+	for i := 10; i < 14; i++ {
+		fsys[fmt.Sprintf("bay%02d.md", i)] = page(i, true) // 6 of 14: boilerplate
+	}
+	got, err := Run(context.Background(), fsys, opts)
+	if err != nil {
+		t.Fatal(err)
+	}
+	plain := opts
+	plain.Cache = nil
+	want, err := Run(context.Background(), fsys, plain)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got.Stats.BoilerplateDropped != 6 || !reflect.DeepEqual(got.Passages, want.Passages) || !reflect.DeepEqual(got.Boilerplate, want.Boilerplate) {
+		t.Errorf("after the footer became boilerplate: dropped %d, passages equal a clean run's: %v",
+			got.Stats.BoilerplateDropped, reflect.DeepEqual(got.Passages, want.Passages))
+	}
+
+	// bay00.md changes behind the cache's back, then the footer stops being
+	// boilerplate, so bay00.md must be split again from its blocks.
+	changed := []byte(strings.Replace(string(fsys["bay00.md"].Data), "swept", "swabd", 1))
+	fsys["bay00.md"] = &fstest.MapFile{Data: changed, ModTime: old}
+	for i := 10; i < 14; i++ {
+		delete(fsys, fmt.Sprintf("bay%02d.md", i))
+	}
+	res, err := Run(context.Background(), fsys, opts)
+	if err != nil {
+		t.Fatal(err)
+	}
+	found := false
+	for _, p := range res.Problems {
+		found = found || (p.Path == "bay00.md" && strings.Contains(p.Msg, "changed while the build ran"))
+	}
+	for _, p := range res.Passages {
+		if p.Path == "bay00.md" {
+			t.Errorf("a passage of the page that changed behind the cache's back: %q", p.Text)
+		}
+	}
+	if !found || len(res.Passages) == 0 {
+		t.Errorf("problems %v, %d passages", res.Problems, len(res.Passages))
 	}
 }

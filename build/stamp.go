@@ -15,12 +15,12 @@ import (
 // metadata only: every walked file's path, size and modification time,
 // every walk problem, the options that shape the bundle, and extra (the
 // caller adds what lies outside fsys: the tool version, the source commit).
-// It also returns the newest modification time seen, so a caller can
-// refuse to trust a file changed within the clock tick of its last read.
-// Two equal digests mean the same files with the same times; whether the
-// bytes are the same is the usual size-and-time assumption of make and
-// git.
-func InputsDigest(fsys fs.FS, opts Options, extra string) (string, time.Time) {
+// It also returns the walked files, so that a caller can check the bytes
+// of those changed within the clock tick of its last look, whose size and
+// time do not vouch for them. Two equal digests mean the same files with
+// the same times; whether the bytes are the same is the usual
+// size-and-time assumption of make and git.
+func InputsDigest(fsys fs.FS, opts Options, extra string) (string, []sources.File) {
 	files, problems := sources.Walk(fsys, opts.Walk)
 	h := sha256.New()
 	shaping := struct {
@@ -31,15 +31,37 @@ func InputsDigest(fsys fs.FS, opts Options, extra string) (string, time.Time) {
 	}{opts.Settings, opts.Walk, opts.Fresh, opts.Dedupe}
 	data, _ := json.Marshal(shaping)
 	fmt.Fprintf(h, "%s\x00%s\x00", extra, data)
-	var newest time.Time
 	for _, f := range files {
 		fmt.Fprintf(h, "%s\x00%d %d\x00", f.Path, f.Size, f.ModTime.UnixNano())
-		if f.ModTime.After(newest) {
-			newest = f.ModTime
-		}
 	}
 	for _, p := range problems {
 		fmt.Fprintf(h, "!%s\x00", p.Error())
 	}
-	return hex.EncodeToString(h.Sum(nil)), newest
+	return hex.EncodeToString(h.Sum(nil)), files
+}
+
+// Racy returns the files modified less than the racy window before t, or
+// after it: their size and time cannot vouch for their bytes at t.
+func Racy(files []sources.File, t time.Time) []sources.File {
+	var out []sources.File
+	for _, f := range files {
+		if !f.ModTime.Before(t.Add(-racyWindow)) {
+			out = append(out, f)
+		}
+	}
+	return out
+}
+
+// FileHash returns the SHA-256 (hex) of the bytes of path that the last
+// Run using c read, or "" when c holds no such file.
+func (c *Cache) FileHash(path string) string {
+	if c == nil {
+		return ""
+	}
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	if e := c.entries[path]; e != nil {
+		return e.Hash
+	}
+	return ""
 }

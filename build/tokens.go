@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"hash/maphash"
 	"strings"
+	"sync"
 	"sync/atomic"
 	"unicode"
 	"unicode/utf8"
@@ -32,8 +33,10 @@ import (
 // DEL (U+007F) counts no token. Normalised prose holds neither; in code
 // they change a count by a token here and there.
 type Tokenizer struct {
-	name  string
-	codec tokenizer.Codec
+	name string
+	// codec loads the library's vocabulary on first use: a rebuild that
+	// takes every passage from the cache never needs it.
+	codec func() (tokenizer.Codec, error)
 	cache pieceCache
 }
 
@@ -45,11 +48,9 @@ func NewTokenizer(name string) (*Tokenizer, error) {
 	if name != string(tokenizer.Cl100kBase) {
 		return nil, fmt.Errorf("tokenizer %q not supported (known: %s)", name, tokenizer.Cl100kBase)
 	}
-	c, err := tokenizer.Get(tokenizer.Cl100kBase)
-	if err != nil {
-		return nil, fmt.Errorf("tokenizer %s: %w", name, err)
-	}
-	t := &Tokenizer{name: name, codec: c}
+	t := &Tokenizer{name: name, codec: sync.OnceValues(func() (tokenizer.Codec, error) {
+		return tokenizer.Get(tokenizer.Cl100kBase)
+	})}
 	t.cache.init()
 	return t, nil
 }
@@ -174,7 +175,13 @@ func (t *Tokenizer) countShort(p string) int {
 // split by the library into that same single piece, so this is the BPE
 // count of p.
 func (t *Tokenizer) libraryCount(p string) int {
-	n, err := t.codec.Count(p)
+	c, err := t.codec()
+	if err != nil {
+		// The vocabulary is compiled in; it fails to load only if the
+		// library is broken, which its own tests would show.
+		panic(fmt.Sprintf("tokenizer %s: %v", t.name, err))
+	}
+	n, err := c.Count(p)
 	if err != nil {
 		// The codec fails only on a regexp timeout, and none is set; count
 		// bytes, an upper bound, rather than pretend the text is empty.

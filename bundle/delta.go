@@ -2,15 +2,12 @@ package bundle
 
 import (
 	"bufio"
-	"crypto/sha256"
-	"encoding/hex"
 	"encoding/json"
 	"errors"
 	"fmt"
 	"io/fs"
 	"os"
 	"path/filepath"
-	"slices"
 	"sort"
 
 	"github.com/kbc-project/kbc/build"
@@ -46,42 +43,42 @@ func (d *Delta) Empty() bool {
 }
 
 // ContentHash is the SHA-256 (hex) of a passage's title, heading trail and
-// text: what the delta compares.
+// text: what the delta compares. Each string is prefixed with its length
+// and a colon, and the trail with its number of headings, so that no two
+// different passages hash the same bytes.
 func ContentHash(p *build.Passage) string {
-	h := sha256.New()
-	fmt.Fprintf(h, "%d:%s%d:", len(p.Title), p.Title, len(p.Heading))
-	for _, s := range p.Heading {
-		fmt.Fprintf(h, "%d:%s", len(s), s)
-	}
-	fmt.Fprintf(h, "%d:%s", len(p.Text), p.Text)
-	return hex.EncodeToString(h.Sum(nil))
+	return hexSum(contentSum(p))
 }
 
 // Diff compares the passages of two bundles by id and content (title,
 // heading trail and text; Change carries their ContentHash). The result is
 // sorted by id.
 func Diff(old, cur []build.Passage) *Delta {
+	return diffCatalogs(catalogOf(old), catalogOf(cur))
+}
+
+// diffCatalogs is Diff on two bundles' catalogs.
+func diffCatalogs(old, cur *catalog) *Delta {
 	d := &Delta{Added: []string{}, Changed: []Change{}, Removed: []string{}}
-	before := make(map[string]*build.Passage, len(old))
-	for i := range old {
-		before[old[i].ID] = &old[i]
+	before := make(map[string]*catalogEntry, len(old.Entries))
+	for i := range old.Entries {
+		before[old.Entries[i].ID] = &old.Entries[i]
 	}
-	seen := make(map[string]bool, len(cur))
-	for i := range cur {
-		p := &cur[i]
-		seen[p.ID] = true
-		q, ok := before[p.ID]
-		if !ok {
-			d.Added = append(d.Added, p.ID)
-			continue
-		}
-		if q.Text != p.Text || q.Title != p.Title || !slices.Equal(q.Heading, p.Heading) {
-			d.Changed = append(d.Changed, Change{ID: p.ID, OldHash: ContentHash(q), NewHash: ContentHash(p)})
+	seen := make(map[string]bool, len(cur.Entries))
+	for i := range cur.Entries {
+		e := &cur.Entries[i]
+		seen[e.ID] = true
+		q, ok := before[e.ID]
+		switch {
+		case !ok:
+			d.Added = append(d.Added, e.ID)
+		case q.Content != e.Content:
+			d.Changed = append(d.Changed, Change{ID: e.ID, OldHash: hexSum(q.Content), NewHash: hexSum(e.Content)})
 		}
 	}
-	for _, p := range old {
-		if !seen[p.ID] {
-			d.Removed = append(d.Removed, p.ID)
+	for _, e := range old.Entries {
+		if !seen[e.ID] {
+			d.Removed = append(d.Removed, e.ID)
 		}
 	}
 	sort.Strings(d.Added)
@@ -120,6 +117,8 @@ type Prior struct {
 	// files when the new bundle indexes exactly the same content.
 	Dir      string
 	Manifest *Manifest
+
+	cat *catalog // from ReadPrior, when the bundle's catalog was saved
 }
 
 // All returns the prior bundle's passages, reading them from Dir when
@@ -135,9 +134,40 @@ func (p *Prior) All() ([]build.Passage, error) {
 	return p.Passages, nil
 }
 
+// catalog returns the prior bundle's catalog: the one saved beside it, or
+// one made from its passages.
+func (p *Prior) catalog() (*catalog, error) {
+	if p.cat == nil {
+		ps, err := p.All()
+		if err != nil {
+			return nil, err
+		}
+		p.cat = catalogOf(ps)
+	}
+	return p.cat, nil
+}
+
+// passages returns the prior passages at the indexes idx of its catalog,
+// reading only their lines when the catalog knows where they are.
+func (p *Prior) passages(idx []int) ([]build.Passage, error) {
+	if p.Passages == nil && p.cat != nil && p.Dir != "" {
+		return readCatalogLines(p.Dir, p.cat, idx)
+	}
+	ps, err := p.All()
+	if err != nil {
+		return nil, err
+	}
+	out := make([]build.Passage, len(idx))
+	for j, i := range idx {
+		out[j] = ps[i]
+	}
+	return out, nil
+}
+
 // ReadPrior reads the manifest of the bundle that a new build into dir
-// will replace; its passages are read when first needed (Prior.All). A
-// dir that holds no bundle yet gives nil and no error.
+// will replace, and the catalog of its passages when one was saved for
+// it (Input.Catalog); the passages themselves are read only when needed.
+// A dir that holds no bundle yet gives nil and no error.
 func ReadPrior(dir string) (*Prior, error) {
 	m, err := ReadManifest(dir)
 	if errors.Is(err, fs.ErrNotExist) {
@@ -146,5 +176,9 @@ func ReadPrior(dir string) (*Prior, error) {
 	if err != nil {
 		return nil, err
 	}
-	return &Prior{ID: m.BundleID, Dir: dir, Manifest: m}, nil
+	p := &Prior{ID: m.BundleID, Dir: dir, Manifest: m}
+	if fi, err := os.Stat(filepath.Join(dir, PassagesFile)); err == nil {
+		p.cat, _ = loadCatalog(dir, m, fi.Size()) // without one, passages.jsonl is read
+	}
+	return p, nil
 }

@@ -10,6 +10,7 @@ import (
 	"os"
 	"path/filepath"
 	"runtime"
+	"strconv"
 	"strings"
 	"sync"
 	"sync/atomic"
@@ -116,9 +117,10 @@ type fieldStats struct {
 // indexStats is index/stats.json: what Search needs beyond the bleve index
 // to compute BM25 exactly. It is written once, at build time.
 type indexStats struct {
-	// Content is the SHA-256 of what the index holds (each passage's id,
-	// title, heading trail and text, in order): a new build whose content
-	// is the same reuses the previous bundle's index files.
+	// Content is the SHA-256 of what the index holds (each passage's id
+	// and the ContentHash of its title, heading trail and text, in order)
+	// and how: a new build whose content is the same reuses the previous
+	// bundle's index files.
 	Content  string                `json:"content"`
 	Analyzer string                `json:"analyzer"`
 	B        float64               `json:"b"`
@@ -161,10 +163,10 @@ func (s *indexStats) avgdl(f string) float64 {
 // refers to the segment by file name only. Last, canonicalRoot removes the
 // wall-clock time scorch writes into root.bolt. Two builds of the same
 // passages then give byte-identical files (TestDeterministic).
-func buildIndex(dir string, ps []build.Passage, order []int) (*indexStats, error) {
+func buildIndex(dir string, ps []build.Passage, order []int, content string) (*indexStats, error) {
 	m := newMapping()
 	st := &indexStats{
-		Content:  indexContent(ps, order),
+		Content:  content,
 		Analyzer: en.AnalyzerName,
 		B:        bm25B,
 		K1:       bm25K1,
@@ -444,14 +446,20 @@ func copyBucket(dst, src *bolt.Bucket, name, epoch []byte) error {
 	})
 }
 
-// indexContent hashes exactly what buildIndex puts into the index and
-// how: the fields of each passage in order, and the ranking parameters.
-func indexContent(ps []build.Passage, order []int) string {
+// indexContent hashes what buildIndex puts into the index and how: the
+// id and content hash of each passage of the catalog, in order, and the
+// ranking parameters. Passages with equal content hashes index the same.
+func indexContent(c *catalog) string {
 	h := sha256.New()
-	fmt.Fprintf(h, "kbc-index 1 %s %g %g %g %g %g\x00", en.AnalyzerName, bm25K1, bm25B, boostTitle, boostHeading, boostText)
-	for _, i := range order {
-		p := &ps[i]
-		fmt.Fprintf(h, "%d:%s%d:%s%d:%s%d:%s", len(p.ID), p.ID, len(p.Title), p.Title, len(p.Text), p.Text, len(p.Heading), strings.Join(p.Heading, "\x00"))
+	fmt.Fprintf(h, "kbc-index 2 %s %g %g %g %g %g\x00", en.AnalyzerName, bm25K1, bm25B, boostTitle, boostHeading, boostText)
+	var buf []byte
+	for i := range c.Entries {
+		e := &c.Entries[i]
+		buf = strconv.AppendInt(buf[:0], int64(len(e.ID)), 10)
+		buf = append(buf, ':')
+		buf = append(buf, e.ID...)
+		buf = append(buf, e.Content[:]...)
+		h.Write(buf)
 	}
 	return hex.EncodeToString(h.Sum(nil))
 }
@@ -470,7 +478,7 @@ const maxUpdateShare = 0.2
 // index or too much changed. The files differ from a fresh build's (more
 // segments, deletions); the passages, the bundle id and every score are
 // the same.
-func updateIndex(prior *Prior, indexDir string, ps []build.Passage, order []int) (*indexStats, error) {
+func updateIndex(prior *Prior, indexDir string, ps []build.Passage, order []int, cat *catalog, content string) (*indexStats, error) {
 	if prior == nil || prior.Dir == "" || prior.Manifest == nil {
 		return nil, errors.New("no prior index")
 	}
@@ -487,28 +495,26 @@ func updateIndex(prior *Prior, indexDir string, ps []build.Passage, order []int)
 		st.Boosts[fieldTitle] != boostTitle || st.Boosts[fieldHeading] != boostHeading || st.Boosts[fieldText] != boostText {
 		return nil, errors.New("prior index made with other ranking settings")
 	}
-	priorPs, err := prior.All()
+	old, err := prior.catalog()
 	if err != nil {
 		return nil, err
 	}
-	key := func(p *build.Passage) string { return indexContent([]build.Passage{*p}, []int{0}) }
-	before := make(map[string]string, len(priorPs))
-	for i := range priorPs {
-		before[priorPs[i].ID] = key(&priorPs[i])
+	before := make(map[string][sha256.Size]byte, len(old.Entries))
+	for _, e := range old.Entries {
+		before[e.ID] = e.Content
 	}
 	var add []int // into ps: new or changed
-	after := make(map[string]string, len(order))
-	for _, i := range order {
-		k := key(&ps[i])
-		after[ps[i].ID] = k
-		if old, ok := before[ps[i].ID]; !ok || old != k {
+	after := make(map[string][sha256.Size]byte, len(order))
+	for j, i := range order {
+		e := &cat.Entries[j]
+		after[e.ID] = e.Content
+		if k, ok := before[e.ID]; !ok || k != e.Content {
 			add = append(add, i)
 		}
 	}
-	var gone []int // into priorPs: removed or changed
-	for i := range priorPs {
-		id := priorPs[i].ID
-		if k, ok := after[id]; !ok || k != before[id] {
+	var gone []int // into the prior catalog: removed or changed
+	for i, e := range old.Entries {
+		if k, ok := after[e.ID]; !ok || k != e.Content {
 			gone = append(gone, i)
 		}
 	}
@@ -541,7 +547,15 @@ func updateIndex(prior *Prior, indexDir string, ps []build.Passage, order []int)
 			})
 		}
 	}
-	oldDocs, err := analyse(cur, priorPs, gone)
+	priorPs, err := prior.passages(gone)
+	if err != nil {
+		return fail(err)
+	}
+	all := make([]int, len(priorPs))
+	for i := range all {
+		all[i] = i
+	}
+	oldDocs, err := analyse(cur, priorPs, all)
 	if err != nil {
 		return fail(err)
 	}
@@ -557,7 +571,7 @@ func updateIndex(prior *Prior, indexDir string, ps []build.Passage, order []int)
 		return fail(err)
 	}
 	batch := idx.NewBatch()
-	for _, i := range gone {
+	for i := range priorPs {
 		batch.Delete(priorPs[i].ID)
 	}
 	for _, i := range add {
@@ -574,6 +588,6 @@ func updateIndex(prior *Prior, indexDir string, ps []build.Passage, order []int)
 		return fail(err)
 	}
 	st.Docs = len(order)
-	st.Content = indexContent(ps, order)
+	st.Content = content
 	return &st, nil
 }

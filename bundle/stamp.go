@@ -18,6 +18,10 @@ type Stamp struct {
 	Manifest string          `json:"manifest"`           // SHA-256 of manifest.json as written
 	Summary  json.RawMessage `json:"summary"`            // the build's summary, for printing again
 	Problems []string        `json:"problems,omitempty"` // its path:line lines, likewise
+	// Racy holds the SHA-256 (hex) of the bytes the build read of each
+	// file changed within a second of Read, by path: their size and time
+	// do not vouch for them, their bytes must match.
+	Racy map[string]string `json:"racy,omitempty"`
 }
 
 const stampFile = "stamp.json"
@@ -38,31 +42,11 @@ func ReadStamp(out string) *Stamp {
 
 // WriteStamp writes the stamp of the bundle folder out, atomically.
 func WriteStamp(out string, s *Stamp) error {
-	dir := CacheDir(out)
-	if err := os.MkdirAll(dir, 0o755); err != nil {
-		return err
-	}
 	data, err := json.MarshalIndent(s, "", "  ")
 	if err != nil {
 		return err
 	}
-	tmp, err := os.CreateTemp(dir, ".stamp-*.tmp")
-	if err != nil {
-		return err
-	}
-	defer os.Remove(tmp.Name())
-	if _, err := tmp.Write(data); err != nil {
-		tmp.Close()
-		return err
-	}
-	if err := tmp.Sync(); err != nil {
-		tmp.Close()
-		return err
-	}
-	if err := tmp.Close(); err != nil {
-		return err
-	}
-	return os.Rename(tmp.Name(), filepath.Join(dir, stampFile))
+	return writeCacheFile(out, stampFile, data)
 }
 
 // ManifestHash returns the SHA-256 (hex) of out's manifest.json, or "".

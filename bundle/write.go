@@ -2,6 +2,7 @@ package bundle
 
 import (
 	"bufio"
+	"bytes"
 	"crypto/sha256"
 	"encoding/hex"
 	"encoding/json"
@@ -15,6 +16,7 @@ import (
 	"runtime"
 	"slices"
 	"strings"
+	"sync"
 	"time"
 	"unicode/utf8"
 
@@ -47,6 +49,11 @@ type Input struct {
 	// Prior is the bundle this one replaces, for delta.json; nil for a
 	// first build, whose delta lists every passage as added.
 	Prior *Prior
+	// Catalog asks Write to save, in CacheDir(out), a catalog of the
+	// passages: each one's id, ContentHash and place in passages.jsonl.
+	// The next Write into out, given ReadPrior(out), then computes its
+	// delta and updates the index without decoding every prior passage.
+	Catalog bool
 	// Files are extra files (reports), by slash path inside the bundle,
 	// written as they are and listed in the manifest. A path must be
 	// valid for fs.ValidPath, must not contain a backslash and must not
@@ -98,7 +105,8 @@ func write(out string, in *Input, hook func(tmp string) error) (_ *Manifest, err
 			os.RemoveAll(tmp)
 		}
 	}()
-	m, err := writeTree(tmp, in)
+	var cat *catalog
+	m, err := writeTree(tmp, in, &cat)
 	if err == nil && hook != nil {
 		err = hook(tmp)
 	}
@@ -108,7 +116,64 @@ func write(out string, in *Input, hook func(tmp string) error) (_ *Manifest, err
 	if err != nil {
 		return nil, fmt.Errorf("writing bundle %s: %w", out, err)
 	}
+	if in.Catalog {
+		// Without it the next build reads passages.jsonl instead.
+		if saveCatalog(out, cat) != nil {
+			os.Remove(filepath.Join(CacheDir(out), catalogFile))
+		}
+	}
 	return m, nil
+}
+
+// encodeLines encodes each passage, in order, as one compact line of
+// JSON, on several goroutines; the lines share one buffer per goroutine.
+func encodeLines(ps []build.Passage, order []int) ([][]byte, error) {
+	lines := make([][]byte, len(order))
+	workers := min(runtime.GOMAXPROCS(0), max(len(order), 1))
+	errs := make([]error, workers)
+	var wg sync.WaitGroup
+	for w := range workers {
+		wg.Go(func() {
+			// Worker w encodes one contiguous run of passages.
+			lo, hi := w*len(order)/workers, (w+1)*len(order)/workers
+			// Room for the strings plus the keys and numbers: a passage
+			// rarely needs more, and growing a large buffer costs copies.
+			size := 0
+			for _, i := range order[lo:hi] {
+				p := &ps[i]
+				size += len(p.Text) + len(p.Title) + 2*len(p.Path) + len(p.Anchor) + 640
+				for _, h := range p.Heading {
+					size += len(h) + 3
+				}
+				for _, a := range p.AlsoAt {
+					size += len(a) + 3
+				}
+			}
+			var buf bytes.Buffer
+			buf.Grow(size + size/16)
+			enc := json.NewEncoder(&buf)
+			enc.SetEscapeHTML(false)
+			ends := make([]int, 0, hi-lo)
+			for _, i := range order[lo:hi] {
+				p := ps[i]
+				if p.Heading == nil {
+					p.Heading = []string{} // "heading" is always an array
+				}
+				if err := enc.Encode(&p); err != nil {
+					errs[w] = fmt.Errorf("passage %s: %w", p.ID, err)
+					return
+				}
+				ends = append(ends, buf.Len())
+			}
+			all, start := buf.Bytes(), 0
+			for k, end := range ends {
+				lines[lo+k] = all[start:end:end]
+				start = end
+			}
+		})
+	}
+	wg.Wait()
+	return lines, errors.Join(errs...)
 }
 
 // reserved reports whether name is, or lies under, one of the bundle's own
@@ -253,7 +318,8 @@ func sortedOrder(ps []build.Passage) []int {
 
 // writeTree writes the whole bundle into the empty folder dir and flushes
 // it to stable storage.
-func writeTree(dir string, in *Input) (*Manifest, error) {
+// It also returns, through saved, the catalog of the bundle's passages.
+func writeTree(dir string, in *Input, saved **catalog) (*Manifest, error) {
 	if err := os.Chmod(dir, 0o755); err != nil {
 		return nil, err
 	}
@@ -291,44 +357,49 @@ func writeTree(dir string, in *Input) (*Manifest, error) {
 		m.Counts["documents"] = paths
 	}
 
-	// passages.jsonl: one compact JSON object per line.
+	// passages.jsonl: one compact JSON object per line. The catalog
+	// records where each line lies.
+	cat := &catalog{Entries: make([]catalogEntry, len(order))}
+	sums := contentSums(in.Passages, order)
+	lines, err := encodeLines(in.Passages, order)
+	if err != nil {
+		return nil, err
+	}
 	m.Files[PassagesFile], err = writeFile(dir, PassagesFile, func(w io.Writer) error {
 		bw := bufio.NewWriterSize(w, 1<<16)
-		enc := json.NewEncoder(bw)
-		enc.SetEscapeHTML(false)
-		for _, i := range order {
-			p := in.Passages[i]
-			if p.Heading == nil {
-				p.Heading = []string{} // "heading" is always an array
+		var off int64
+		for j, line := range lines {
+			if _, err := bw.Write(line); err != nil {
+				return err
 			}
-			if err := enc.Encode(&p); err != nil {
-				return fmt.Errorf("passage %s: %w", p.ID, err)
-			}
+			id := in.Passages[order[j]].ID
+			cat.Entries[j] = catalogEntry{ID: id, Content: sums[j], Off: off, Len: int64(len(line))}
+			off += int64(len(line))
 		}
+		cat.Size = off
 		return bw.Flush()
 	})
 	if err != nil {
 		return nil, err
 	}
 	m.BundleID = strings.TrimPrefix(m.Files[PassagesFile], "sha256:")
+	cat.BundleID = m.BundleID
+	*saved = cat
 
 	// delta.json: what changed against the bundle this one replaces.
-	sorted := make([]build.Passage, len(order))
-	for j, i := range order {
-		sorted[j] = in.Passages[i]
-	}
-	var prior []build.Passage
-	delta := &Delta{}
+	prior := &catalog{}
 	if in.Prior != nil {
-		delta.From = in.Prior.ID
 		if in.Prior.ID == m.BundleID {
-			prior = sorted // the same bytes: nothing to compare
-		} else if prior, err = in.Prior.All(); err != nil {
+			prior = cat // the same bytes: nothing to compare
+		} else if prior, err = in.Prior.catalog(); err != nil {
 			return nil, fmt.Errorf("reading the bundle replaced: %w", err)
 		}
 	}
-	d := Diff(prior, sorted)
-	d.From, d.To = delta.From, m.BundleID
+	d := diffCatalogs(prior, cat)
+	if in.Prior != nil {
+		d.From = in.Prior.ID
+	}
+	d.To = m.BundleID
 	m.Files[DeltaFile], err = writeFile(dir, DeltaFile, func(w io.Writer) error {
 		data, err := MarshalReport(d)
 		if err != nil {
@@ -348,10 +419,11 @@ func writeTree(dir string, in *Input) (*Manifest, error) {
 
 	indexDir := filepath.Join(dir, filepath.FromSlash(IndexDir))
 	var stats []byte
-	if !reuseIndex(in.Prior, indexDir, indexContent(in.Passages, order)) {
-		st, err := updateIndex(in.Prior, indexDir, in.Passages, order)
+	content := indexContent(cat)
+	if !reuseIndex(in.Prior, indexDir, content) {
+		st, err := updateIndex(in.Prior, indexDir, in.Passages, order, cat, content)
 		if err != nil {
-			st, err = buildIndex(indexDir, in.Passages, order)
+			st, err = buildIndex(indexDir, in.Passages, order, content)
 		}
 		if err != nil {
 			return nil, err
@@ -405,7 +477,8 @@ func writeTree(dir string, in *Input) (*Manifest, error) {
 	if _, err := writeFile(dir, ManifestFile, bytesWriter(data)); err != nil {
 		return nil, err
 	}
-	return m, syncDirs(dir)
+	err = syncDirs(dir)
+	return m, err
 }
 
 func bytesWriter(data []byte) func(io.Writer) error {

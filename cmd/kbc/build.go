@@ -2,6 +2,8 @@ package main
 
 import (
 	"context"
+	"crypto/sha256"
+	"encoding/hex"
 	"encoding/json"
 	"errors"
 	"flag"
@@ -189,7 +191,6 @@ type session struct {
 	watch bool // keep the cache in memory and save it once, at the end
 
 	cache *build.Cache
-	prior *bundle.Prior // the bundle last written; nil: read it from out
 
 	// The source commit, when already asked of git for this build (watch
 	// asks again for each rebuild, as commits may land while it runs).
@@ -207,8 +208,10 @@ func (s *session) cacheFor(set build.Settings, stderr io.Writer) *build.Cache {
 	if s.cache.Fits(tool, set) {
 		return s.cache
 	}
-	c, err := bundle.ReadCache(s.out)
+	c, err := build.LoadCache(bundle.CacheDir(s.out))
 	switch {
+	case errors.Is(err, build.ErrNoCache):
+		c = nil
 	case err != nil:
 		fmt.Fprintf(stderr, "kbc: build cache unreadable (%v); rebuilding it\n", err)
 		c = nil
@@ -226,7 +229,7 @@ func (s *session) cacheFor(set build.Settings, stderr io.Writer) *build.Cache {
 // saveCache writes the build cache back when a build changed it.
 func (s *session) saveCache(stderr io.Writer) {
 	if s.cache != nil && s.cache.Changed() {
-		if err := bundle.WriteCache(s.out, s.cache); err != nil {
+		if err := s.cache.Save(bundle.CacheDir(s.out)); err != nil {
 			fmt.Fprintf(stderr, "kbc: could not save the build cache: %v\n", err)
 		}
 	}
@@ -269,29 +272,26 @@ func writeBundle(sess *session, src string, res *build.Result, opts build.Option
 			"warnings": st.Warnings, "boilerplate_dropped": st.BoilerplateDropped,
 			"duplicates_removed": st.Duplicates, "divergent_copies": st.Divergent, "stale_documents": st.Stale,
 		},
-		Files: files,
+		Files:   files,
+		Catalog: true,
 	}
 	// Like mkdir -p for the folder that will hold the bundle.
 	if err := os.MkdirAll(filepath.Dir(filepath.Clean(out)), 0o755); err != nil {
 		return nil, nil, fmt.Errorf("cannot create the folder for %s: %v", out, unwrapPathErr(err))
 	}
-	prior := sess.prior
-	if prior == nil {
-		if prior, err = bundle.ReadPrior(out); err != nil {
-			fmt.Fprintf(stderr, "kbc: the bundle in %s cannot be read (%v); the delta lists every passage as added\n", out, err)
-			prior = nil
-		}
+	// The bundle replaced: its manifest and the catalog of its passages
+	// saved beside it, which is all the delta and the index update read.
+	prior, err := bundle.ReadPrior(out)
+	if err != nil {
+		fmt.Fprintf(stderr, "kbc: the bundle in %s cannot be read (%v); the delta lists every passage as added\n", out, err)
+		prior = nil
 	}
 	in.Prior = prior
 	m, err := bundle.Write(out, in)
 	if err != nil {
-		sess.prior = nil // read what is there now next time
 		return nil, nil, err
 	}
-	if sess.watch {
-		// The next rebuild compares against this bundle: keep it.
-		sess.prior = &bundle.Prior{ID: m.BundleID, Passages: res.Passages, Dir: out, Manifest: m}
-	} else {
+	if !sess.watch {
 		sess.saveCache(stderr)
 	}
 	var delta bundle.Delta
@@ -336,12 +336,12 @@ func runBuild(args []string, stdout, stderr io.Writer) int {
 	sess.commit, sess.dirty = build.SourceCommit(src)
 	sess.commitKnown = true
 	var inputs string
+	var walked []sources.File
 	looked := time.Now()
 	if opts, g, err := sf.options(src); err == nil && !*strict {
 		extra := fmt.Sprintf("%s\x00%s %t\x00%s", version, sess.commit, sess.dirty, os.Getenv("SOURCE_DATE_EPOCH"))
-		var newest time.Time
-		inputs, newest = build.InputsDigest(os.DirFS(src), opts, extra)
-		if code, ok := upToDate(*out, inputs, newest, g, *asJSON, start, stdout, stderr); ok {
+		inputs, walked = build.InputsDigest(os.DirFS(src), opts, extra)
+		if code, ok := upToDate(*out, src, inputs, walked, g, *asJSON, start, stdout, stderr); ok {
 			return code
 		}
 	}
@@ -373,6 +373,14 @@ func runBuild(args []string, stdout, stderr io.Writer) int {
 		for _, p := range res.Problems {
 			st.Problems = append(st.Problems, p.Error())
 		}
+		for _, f := range build.Racy(walked, looked) {
+			if h := sess.cache.FileHash(f.Path); h != "" {
+				if st.Racy == nil {
+					st.Racy = map[string]string{}
+				}
+				st.Racy[f.Path] = h
+			}
+		}
 		if err := bundle.WriteStamp(*out, st); err != nil {
 			fmt.Fprintf(stderr, "kbc build: could not record the build's inputs: %v\n", err)
 		}
@@ -392,11 +400,19 @@ func runBuild(args []string, stdout, stderr io.Writer) int {
 // build's warnings and summary (no passage added, changed or removed),
 // runs the gates on the bundle's reports judged now, and returns the exit
 // code. Files changed within a second of the last look are not trusted
-// by their size and time alone, so such a build runs in full.
-func upToDate(out, inputs string, newest time.Time, g gates, asJSON bool, start time.Time, stdout, stderr io.Writer) (int, bool) {
+// by their size and time alone: their bytes must be those the last build
+// read (Stamp.Racy), or the build runs.
+func upToDate(out, src, inputs string, walked []sources.File, g gates, asJSON bool, start time.Time, stdout, stderr io.Writer) (int, bool) {
 	st := bundle.ReadStamp(out)
-	if st == nil || st.Inputs != inputs || !newest.Before(st.Read.Add(-time.Second)) || bundle.ManifestHash(out) != st.Manifest {
+	if st == nil || st.Inputs != inputs || bundle.ManifestHash(out) != st.Manifest {
 		return 0, false
+	}
+	for _, f := range build.Racy(walked, st.Read) {
+		data, err := os.ReadFile(filepath.Join(src, filepath.FromSlash(f.Path)))
+		sum := sha256.Sum256(data)
+		if err != nil || st.Racy[f.Path] != hex.EncodeToString(sum[:]) {
+			return 0, false
+		}
 	}
 	if bad, err := bundle.Verify(out); err != nil || len(bad) > 0 {
 		return 0, false

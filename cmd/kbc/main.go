@@ -23,6 +23,7 @@ import (
 	"fmt"
 	"io"
 	"os"
+	"runtime/pprof"
 )
 
 // version is the tool version recorded in every bundle manifest.
@@ -36,6 +37,16 @@ const (
 )
 
 func main() {
+	// KBC_CPUPROFILE=FILE writes a CPU profile of the run, for go tool
+	// pprof (see DEVELOPERS.md).
+	if p := os.Getenv("KBC_CPUPROFILE"); p != "" {
+		if f, err := os.Create(p); err == nil && pprof.StartCPUProfile(f) == nil {
+			code := run(os.Args[1:], os.Stdout, os.Stderr)
+			pprof.StopCPUProfile()
+			f.Close()
+			os.Exit(code)
+		}
+	}
 	os.Exit(run(os.Args[1:], os.Stdout, os.Stderr))
 }
 

@@ -1,0 +1,307 @@
+package build
+
+import (
+	"bytes"
+	"encoding/binary"
+	"encoding/gob"
+	"errors"
+	"fmt"
+	"hash/crc32"
+	"io/fs"
+	"os"
+	"path/filepath"
+	"runtime"
+	"sort"
+	"sync"
+
+	"github.com/cespare/xxhash/v2"
+
+	"github.com/kbc-project/kbc/build/dedupe"
+)
+
+// The build cache on disk is a folder of files, so that a rebuild after one
+// page changed rewrites a few of them, not the whole cache:
+//
+//	entries-00.gob ... entries-0f.gob  the entries, spread by a hash of their path
+//	state.gob                          the duplicate stage's outcome and hashing memos
+//
+// Each file is a gob stream (a header, then its records) followed by the
+// stream's CRC-32C in 4 little-endian bytes: a torn or altered file is
+// found out before anything in it is used. Every header carries the
+// layout version and the cache key, and all files must agree on them.
+const (
+	cacheLayout = 2
+	cacheShards = 16
+	stateFile   = "state.gob"
+)
+
+func shardFile(i int) string { return fmt.Sprintf("entries-%02x.gob", i) }
+
+func shardOf(path string) int { return int(xxhash.Sum64String(path) % cacheShards) }
+
+// cacheHeader starts every cache file.
+type cacheHeader struct {
+	Layout int
+	Key    string
+	Count  int // records after the header: entries, or 1 for the state
+}
+
+// cacheRecord is one entry of a shard file.
+type cacheRecord struct {
+	Path  string
+	Entry *CacheEntry
+}
+
+// cacheState is the record of the state file.
+type cacheState struct {
+	Dedupe *DedupeMemo
+	Memos  [2][]byte // dedupe.Memo.MarshalBinary, real and masked texts; nil: none
+}
+
+var castagnoli = crc32.MakeTable(crc32.Castagnoli)
+
+// ErrNoCache is returned by LoadCache for a folder that holds no cache.
+var ErrNoCache = errors.New("no build cache")
+
+// LoadCache reads the cache saved in dir by Save. A folder without one
+// gives ErrNoCache; a cache that is incomplete, altered or of another
+// layout gives another error, and the caller should start a new one.
+func LoadCache(dir string) (*Cache, error) {
+	var (
+		wg     sync.WaitGroup
+		shards [cacheShards]map[string]*CacheEntry
+		keys   [cacheShards]string
+		errs   [cacheShards]error
+		next   = make(chan int, cacheShards)
+	)
+	for i := range cacheShards {
+		next <- i
+	}
+	close(next)
+	for range min(runtime.GOMAXPROCS(0), cacheShards) {
+		wg.Go(func() {
+			for i := range next {
+				shards[i], keys[i], errs[i] = readShard(filepath.Join(dir, shardFile(i)))
+			}
+		})
+	}
+	state, stateKey, stateErr := readState(filepath.Join(dir, stateFile))
+	wg.Wait()
+
+	missing := 0
+	for i, err := range errs {
+		if errors.Is(err, fs.ErrNotExist) {
+			missing++
+			continue
+		}
+		if err != nil {
+			return nil, err
+		}
+		if keys[i] != keys[0] {
+			return nil, fmt.Errorf("%s: made for other settings than %s", shardFile(i), shardFile(0))
+		}
+	}
+	switch {
+	case missing == cacheShards && errors.Is(stateErr, fs.ErrNotExist):
+		return nil, ErrNoCache
+	case missing > 0:
+		return nil, fmt.Errorf("%s: %d of %d entry files are missing", dir, missing, cacheShards)
+	}
+	c := &Cache{key: keys[0], entries: map[string]*CacheEntry{}, dirty: map[string]bool{}}
+	for i, m := range shards {
+		for p, e := range m {
+			if shardOf(p) != i {
+				return nil, fmt.Errorf("%s: holds %s, which belongs in %s", shardFile(i), p, shardFile(shardOf(p)))
+			}
+			c.entries[p] = e
+		}
+	}
+	// The state only saves work: a missing or unreadable one is not worth
+	// discarding the entries for.
+	if stateErr == nil && stateKey == c.key {
+		c.dedupe = state.Dedupe
+		for i, data := range state.Memos {
+			if data == nil {
+				continue
+			}
+			m := &dedupe.Memo{}
+			if m.UnmarshalBinary(data) == nil {
+				c.memos[i] = m
+			}
+		}
+	}
+	return c, nil
+}
+
+// Save writes the cache into dir: the entry files holding an entry that
+// changed since the cache was loaded or last saved, and the state when it
+// changed. Each file is replaced atomically; a crash between two files
+// leaves each of them whole, and every entry in them still true of the
+// file it describes (an entry vouches for one content hash).
+func (c *Cache) Save(dir string) error {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	if err := os.MkdirAll(dir, 0o755); err != nil {
+		return err
+	}
+	var todo [cacheShards]bool
+	for p := range c.dirty {
+		todo[shardOf(p)] = true
+	}
+	var groups [cacheShards][]string
+	for p := range c.entries {
+		if i := shardOf(p); c.all || todo[i] {
+			groups[i] = append(groups[i], p)
+		}
+	}
+	var (
+		wg   sync.WaitGroup
+		errs [cacheShards]error
+	)
+	for i := range cacheShards {
+		if !c.all && !todo[i] {
+			continue
+		}
+		wg.Go(func() {
+			paths := groups[i]
+			sort.Strings(paths)
+			errs[i] = writeCacheFile(filepath.Join(dir, shardFile(i)), c.key, len(paths), func(enc *gob.Encoder) error {
+				for _, p := range paths {
+					if err := enc.Encode(cacheRecord{Path: p, Entry: c.entries[p]}); err != nil {
+						return fmt.Errorf("%s: %v", p, err)
+					}
+				}
+				return nil
+			})
+		})
+	}
+	var serr error
+	if c.all || c.state {
+		serr = c.saveState(dir)
+	}
+	wg.Wait()
+	if err := errors.Join(append(errs[:], serr)...); err != nil {
+		return err
+	}
+	if c.all {
+		os.Remove(filepath.Join(dir, "documents.gob")) // the layout before this one
+	}
+	c.dirty, c.all, c.state = map[string]bool{}, false, false
+	return nil
+}
+
+// saveState writes the state file; c.mu must be held.
+func (c *Cache) saveState(dir string) error {
+	st := cacheState{Dedupe: c.dedupe}
+	for i, m := range c.memos {
+		if m == nil {
+			continue
+		}
+		data, err := m.MarshalBinary()
+		if err != nil {
+			return err
+		}
+		st.Memos[i] = data
+	}
+	return writeCacheFile(filepath.Join(dir, stateFile), c.key, 1, func(enc *gob.Encoder) error {
+		return enc.Encode(&st)
+	})
+}
+
+// writeCacheFile writes one cache file atomically: the header, the records
+// body encodes, and the checksum. The data is not flushed to disk first,
+// unlike a bundle's: after a crash a cache file may be torn, and the
+// checksum then rejects it, which costs one full build.
+func writeCacheFile(name, key string, count int, body func(*gob.Encoder) error) error {
+	var buf bytes.Buffer
+	enc := gob.NewEncoder(&buf)
+	if err := enc.Encode(cacheHeader{Layout: cacheLayout, Key: key, Count: count}); err != nil {
+		return err
+	}
+	if err := body(enc); err != nil {
+		return fmt.Errorf("encoding the build cache: %v", err)
+	}
+	buf.Write(binary.LittleEndian.AppendUint32(nil, crc32.Checksum(buf.Bytes(), castagnoli)))
+	tmp, err := os.CreateTemp(filepath.Dir(name), "."+filepath.Base(name)+".tmp-*")
+	if err != nil {
+		return err
+	}
+	defer os.Remove(tmp.Name())
+	if _, err := tmp.Write(buf.Bytes()); err != nil {
+		tmp.Close()
+		return err
+	}
+	if err := tmp.Close(); err != nil {
+		return err
+	}
+	return os.Rename(tmp.Name(), name)
+}
+
+// readCacheFile checks a cache file's checksum and header and returns a
+// decoder positioned at its first record.
+func readCacheFile(name string) (*gob.Decoder, cacheHeader, error) {
+	data, err := os.ReadFile(name)
+	if err != nil {
+		return nil, cacheHeader{}, err
+	}
+	return openCacheData(name, data)
+}
+
+// openCacheData is readCacheFile on the bytes of the file name.
+func openCacheData(name string, data []byte) (*gob.Decoder, cacheHeader, error) {
+	var h cacheHeader
+	if len(data) < 4 || crc32.Checksum(data[:len(data)-4], castagnoli) != binary.LittleEndian.Uint32(data[len(data)-4:]) {
+		return nil, h, fmt.Errorf("%s: checksum mismatch (torn or altered)", name)
+	}
+	dec := gob.NewDecoder(bytes.NewReader(data[:len(data)-4]))
+	if err := dec.Decode(&h); err != nil {
+		return nil, h, fmt.Errorf("%s: %v", name, err)
+	}
+	if h.Layout != cacheLayout {
+		return nil, h, fmt.Errorf("%s: cache layout %d, want %d", name, h.Layout, cacheLayout)
+	}
+	if h.Count < 0 {
+		return nil, h, fmt.Errorf("%s: %d records", name, h.Count)
+	}
+	return dec, h, nil
+}
+
+func readShard(name string) (map[string]*CacheEntry, string, error) {
+	data, err := os.ReadFile(name)
+	if err != nil {
+		return nil, "", err
+	}
+	return decodeShard(name, data)
+}
+
+// decodeShard decodes the bytes of the entry file name.
+func decodeShard(name string, data []byte) (map[string]*CacheEntry, string, error) {
+	dec, h, err := openCacheData(name, data)
+	if err != nil {
+		return nil, "", err
+	}
+	m := make(map[string]*CacheEntry, min(h.Count, 1<<16))
+	for range h.Count {
+		var r cacheRecord
+		if err := dec.Decode(&r); err != nil {
+			return nil, "", fmt.Errorf("%s: %v", name, err)
+		}
+		if r.Entry == nil {
+			return nil, "", fmt.Errorf("%s: %s has no entry", name, r.Path)
+		}
+		m[r.Path] = r.Entry
+	}
+	return m, h.Key, nil
+}
+
+func readState(name string) (*cacheState, string, error) {
+	dec, h, err := readCacheFile(name)
+	if err != nil {
+		return nil, "", err
+	}
+	var st cacheState
+	if err := dec.Decode(&st); err != nil {
+		return nil, "", fmt.Errorf("%s: %v", name, err)
+	}
+	return &st, h.Key, nil
+}

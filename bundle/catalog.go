@@ -1,0 +1,167 @@
+package bundle
+
+import (
+	"bytes"
+	"crypto/sha256"
+	"encoding/binary"
+	"encoding/gob"
+	"encoding/hex"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"hash/crc32"
+	"io"
+	"os"
+	"path/filepath"
+	"runtime"
+	"strconv"
+	"sync"
+
+	"github.com/kbc-project/kbc/build"
+)
+
+// A catalog lists a bundle's passages as the delta and the index update
+// compare them: by id and content hash, with the place of each one's line
+// in passages.jsonl. Write saves it beside the bundle (Input.Catalog), so
+// that the next build into the same folder reads a few hundred kilobytes
+// instead of decoding every passage, and reads back only the lines of the
+// passages it must take out of the index.
+type catalog struct {
+	BundleID string
+	Size     int64 // of passages.jsonl
+	Entries  []catalogEntry
+}
+
+type catalogEntry struct {
+	ID      string
+	Content [sha256.Size]byte // contentSum
+	Off     int64             // the passage's line in passages.jsonl
+	Len     int64             // including its newline
+}
+
+const (
+	catalogFile   = "catalog.gob"
+	catalogLayout = 1
+)
+
+// contentSum is ContentHash as bytes: the SHA-256 of a passage's title,
+// heading trail and text, each prefixed with its length.
+func contentSum(p *build.Passage) [sha256.Size]byte {
+	h := sha256.New()
+	var num []byte
+	field := func(s string) {
+		num = strconv.AppendInt(num[:0], int64(len(s)), 10)
+		num = append(num, ':')
+		h.Write(num)
+		io.WriteString(h, s)
+	}
+	field(p.Title)
+	num = strconv.AppendInt(num[:0], int64(len(p.Heading)), 10)
+	h.Write(append(num, ':'))
+	for _, s := range p.Heading {
+		field(s)
+	}
+	field(p.Text)
+	var sum [sha256.Size]byte
+	h.Sum(sum[:0])
+	return sum
+}
+
+// contentSums returns contentSum of each passage, on several goroutines.
+func contentSums(ps []build.Passage, order []int) [][sha256.Size]byte {
+	sums := make([][sha256.Size]byte, len(order))
+	workers := runtime.GOMAXPROCS(0)
+	var wg sync.WaitGroup
+	for w := range workers {
+		wg.Go(func() {
+			for j := w; j < len(order); j += workers {
+				sums[j] = contentSum(&ps[order[j]])
+			}
+		})
+	}
+	wg.Wait()
+	return sums
+}
+
+// catalogOf returns the catalog of passages (in file order) without
+// places in a file.
+func catalogOf(ps []build.Passage) *catalog {
+	order := make([]int, len(ps))
+	for i := range order {
+		order[i] = i
+	}
+	sums := contentSums(ps, order)
+	c := &catalog{Entries: make([]catalogEntry, len(ps))}
+	for i := range ps {
+		c.Entries[i] = catalogEntry{ID: ps[i].ID, Content: sums[i], Off: -1}
+	}
+	return c
+}
+
+// saveCatalog writes c into out's cache folder, with a checksum.
+func saveCatalog(out string, c *catalog) error {
+	var buf bytes.Buffer
+	buf.WriteString(strconv.Itoa(catalogLayout) + "\n")
+	if err := gob.NewEncoder(&buf).Encode(c); err != nil {
+		return err
+	}
+	buf.Write(binary.LittleEndian.AppendUint32(nil, crc32.Checksum(buf.Bytes(), castagnoli)))
+	return writeCacheFile(out, catalogFile, buf.Bytes())
+}
+
+var castagnoli = crc32.MakeTable(crc32.Castagnoli)
+
+// loadCatalog reads the catalog saved for the bundle in out, when it is
+// whole and belongs to the bundle m whose passages.jsonl has size bytes.
+func loadCatalog(out string, m *Manifest, size int64) (*catalog, error) {
+	data, err := os.ReadFile(filepath.Join(CacheDir(out), catalogFile))
+	if err != nil {
+		return nil, err
+	}
+	head := strconv.Itoa(catalogLayout) + "\n"
+	if len(data) < len(head)+4 || string(data[:len(head)]) != head ||
+		crc32.Checksum(data[:len(data)-4], castagnoli) != binary.LittleEndian.Uint32(data[len(data)-4:]) {
+		return nil, errors.New("catalog: torn, altered or of another layout")
+	}
+	var c catalog
+	if err := gob.NewDecoder(bytes.NewReader(data[len(head) : len(data)-4])).Decode(&c); err != nil {
+		return nil, fmt.Errorf("catalog: %v", err)
+	}
+	if c.BundleID != m.BundleID || c.Size != size {
+		return nil, errors.New("catalog: of another bundle")
+	}
+	return &c, nil
+}
+
+// readCatalogLines reads the passages of the catalog entries at idx from the
+// passages.jsonl in dir, checking that each line holds the passage the
+// catalog says it does.
+func readCatalogLines(dir string, c *catalog, idx []int) ([]build.Passage, error) {
+	name := filepath.Join(dir, PassagesFile)
+	f, err := os.Open(name)
+	if err != nil {
+		return nil, err
+	}
+	defer f.Close()
+	out := make([]build.Passage, len(idx))
+	var buf []byte
+	for j, i := range idx {
+		e := &c.Entries[i]
+		if e.Off < 0 || e.Len <= 0 || e.Len > 1<<28 {
+			return nil, fmt.Errorf("catalog: no place for passage %s", e.ID)
+		}
+		if int64(cap(buf)) < e.Len {
+			buf = make([]byte, e.Len)
+		}
+		buf = buf[:e.Len]
+		if _, err := f.ReadAt(buf, e.Off); err != nil {
+			return nil, fmt.Errorf("%s: passage %s: %v", name, e.ID, err)
+		}
+		if err := json.Unmarshal(buf, &out[j]); err != nil || out[j].ID != e.ID {
+			return nil, fmt.Errorf("%s: passage %s is not where the catalog says", name, e.ID)
+		}
+	}
+	return out, nil
+}
+
+func hexSum(s [sha256.Size]byte) string { return hex.EncodeToString(s[:]) }
