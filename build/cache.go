@@ -5,7 +5,6 @@ import (
 	"encoding/binary"
 	"encoding/hex"
 	"encoding/json"
-	"runtime"
 	"sort"
 	"sync"
 	"time"
@@ -38,43 +37,7 @@ type Cache struct {
 	state bool
 	// memos keep the duplicate search's per-text hashing between builds:
 	// in memory in watch mode, and saved with the cache.
-	memos [2]*dedupe.Memo   // real text, masked text
-	masks map[string]string // passage text hash -> masked text, in memory only
-}
-
-// masked returns maskFigures of each passage's text, on several
-// goroutines, remembering the results in memory for the next build that
-// shares this Cache.
-func (c *Cache) masked(ps []Passage) []string {
-	out := make([]string, len(ps))
-	var known map[string]string
-	if c != nil {
-		c.mu.Lock()
-		defer c.mu.Unlock()
-		known = c.masks
-	}
-	workers := runtime.GOMAXPROCS(0)
-	var wg sync.WaitGroup
-	for w := range workers {
-		wg.Go(func() {
-			for i := w; i < len(ps); i += workers {
-				m, ok := known[ps[i].Hash]
-				if !ok {
-					m = maskFigures(ps[i].Text)
-				}
-				out[i] = m
-			}
-		})
-	}
-	wg.Wait()
-	if c != nil {
-		next := make(map[string]string, len(ps))
-		for i := range ps {
-			next[ps[i].Hash] = out[i]
-		}
-		c.masks = next
-	}
-	return out
+	memos [2]*dedupe.Memo // real text, masked text
 }
 
 // memo returns the hashing memo for the real (0) or masked (1) texts.

@@ -7,6 +7,8 @@ import (
 	"sort"
 	"strings"
 
+	"github.com/cespare/xxhash/v2"
+
 	"github.com/kbc-project/kbc/build/dedupe"
 	"github.com/kbc-project/kbc/sources"
 )
@@ -211,12 +213,16 @@ func applyMemo(ps []Passage, m *DedupeMemo) []Passage {
 func findCopies(ps []Passage, docs map[string]*sources.Document, opts dedupe.Options, cache *Cache) ([]Passage, *DuplicateReport, error) {
 	raw, masking := opts, opts
 	raw.Memo, masking.Memo = cache.memo(0), cache.memo(1)
+	// The memos know a passage by its text's SHA-256 (Passage.Hash), so a
+	// masked text is made only for a passage they do not know yet, or one
+	// whose candidate pairs must be verified.
+	key := func(i int) uint64 { return xxhash.Sum64String(ps[i].Hash) }
+	raw.Key, masking.Key = key, key
 	res, err := dedupe.Find(len(ps), func(i int) string { return ps[i].Text }, raw)
 	if err != nil {
 		return nil, nil, err
 	}
-	masked := cache.masked(ps)
-	resM, err := dedupe.Find(len(ps), func(i int) string { return masked[i] }, masking)
+	resM, err := dedupe.Find(len(ps), func(i int) string { return maskFigures(ps[i].Text) }, masking)
 	if err != nil {
 		return nil, nil, err
 	}

@@ -47,7 +47,7 @@ type Result struct {
 	ExactGroups int
 
 	Passages      int   // n
-	Bytes         int64 // text bytes read in the hashing pass
+	Bytes         int64 // text bytes read in the hashing pass (not those a Memo knew by Key)
 	NoWords       int   // passages without a word: never clustered
 	ExactOnly     int   // passages under MinShingles shingles: compared by exact hash only
 	Hashed        int   // passages that entered LSH (first members of exact groups and single passages)
@@ -221,11 +221,16 @@ func (f *finder) hash() {
 		s := &scratch[w]
 		var bytes int64
 		for i := lo; i < hi; i++ {
-			text := f.text(i)
-			bytes += int64(len(text))
+			var text string
+			read := false
 			var tk uint64
 			if o.Memo != nil {
-				tk = textKey(text)
+				if o.Key != nil {
+					tk = o.Key(i)
+				} else {
+					text, read = f.text(i), true
+					tk = textKey(text)
+				}
 				if e := o.Memo.get(tk); e != nil && e.fits(f.b) {
 					f.exact[i], f.count[i], f.kind[i] = e.exact, e.count, e.kind
 					for band, k := range e.keys {
@@ -234,6 +239,10 @@ func (f *finder) hash() {
 					continue
 				}
 			}
+			if !read {
+				text = f.text(i)
+			}
+			bytes += int64(len(text))
 			f.hashOne(i, text, s, dens)
 			if o.Memo != nil {
 				e := &memoEntry{exact: f.exact[i], count: f.count[i], kind: f.kind[i]}

@@ -46,7 +46,7 @@ func (e *memoEntry) fits(bands int) bool {
 func (m *Memo) begin(o Options, r int) {
 	m.mu.Lock()
 	defer m.mu.Unlock()
-	p := fmt.Sprintf("%d %d %d %d", o.Hashes, o.Shingle, o.MinShingles, r)
+	p := fmt.Sprintf("%d %d %d %d %t", o.Hashes, o.Shingle, o.MinShingles, r, o.Key != nil)
 	if m.m == nil || m.params != p {
 		m.m, m.params = map[uint64]*memoEntry{}, p
 	}

@@ -3,7 +3,10 @@ package dedupe
 import (
 	"bytes"
 	"fmt"
+	"math/rand/v2"
 	"reflect"
+	"strings"
+	"sync/atomic"
 	"testing"
 )
 
@@ -82,4 +85,42 @@ func FuzzMemoUnmarshal(f *testing.F) {
 			t.Fatalf("re-encoded memo: %v, %d texts, want %d", err, m2.Len(), m.Len())
 		}
 	})
+}
+
+// TestMemoKey: with Key, a text the memo knows is not read at all, and
+// the result is the one Find gives without a memo.
+func TestMemoKey(t *testing.T) {
+	// Unrelated texts, so that no pair is a candidate whose texts the
+	// verification must read; and one exact copy.
+	words := strings.Fields("bay dock reefer trailer seal alarm depot driver ramp door chill log shift yard gate fuel tyre cab route load")
+	r := rand.New(rand.NewPCG(7, 8))
+	var texts []string
+	for range 30 {
+		var b strings.Builder
+		for range 40 {
+			b.WriteString(words[r.IntN(len(words))] + " ")
+		}
+		texts = append(texts, b.String())
+	}
+	texts = append(texts, texts[3])
+	var reads atomic.Int64
+	opts := Options{Workers: 2, Memo: &Memo{}, Key: func(i int) uint64 { return textKey(texts[i]) ^ 0x5bd1e995 }}
+	text := func(i int) string { reads.Add(1); return texts[i] }
+	want, err := Find(len(texts), func(i int) string { return texts[i] }, Options{Workers: 2})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for round := range 2 {
+		reads.Store(0)
+		got, err := Find(len(texts), text, opts)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if !reflect.DeepEqual(got.Clusters, want.Clusters) {
+			t.Errorf("round %d: clusters %+v, want %+v", round, got.Clusters, want.Clusters)
+		}
+		if round == 1 && reads.Load() != 0 {
+			t.Errorf("second round read %d texts, want none", reads.Load())
+		}
+	}
 }

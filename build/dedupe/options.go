@@ -46,6 +46,12 @@ type Options struct {
 	// changed) hashes only the new ones. It is not an option of the
 	// result: the result is the same with or without it.
 	Memo *Memo `json:"-"`
+	// Key, when set with Memo, names text i for the memo in place of a
+	// hash of the text itself, so that a text the memo knows is not even
+	// read (the caller may make texts on demand). Equal keys must mean
+	// equal texts. A Memo keeps keys of one kind: used with and without
+	// Key, it starts afresh.
+	Key func(i int) uint64 `json:"-"`
 }
 
 // DefaultOptions returns the defaults: 128 hashes, 5-word shingles,
