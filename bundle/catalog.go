@@ -10,7 +10,6 @@ import (
 	"errors"
 	"fmt"
 	"hash/crc32"
-	"io"
 	"os"
 	"path/filepath"
 	"runtime"
@@ -41,7 +40,7 @@ type catalogEntry struct {
 
 const (
 	catalogFile   = "catalog.gob"
-	catalogLayout = 1
+	catalogLayout = 2
 )
 
 // contentSum is ContentHash as bytes: the SHA-256 of a passage's title,
@@ -49,11 +48,18 @@ const (
 func contentSum(p *build.Passage) [sha256.Size]byte {
 	h := sha256.New()
 	var num []byte
+	var chunk [8 << 10]byte
 	field := func(s string) {
 		num = strconv.AppendInt(num[:0], int64(len(s)), 10)
 		num = append(num, ':')
 		h.Write(num)
-		io.WriteString(h, s)
+		// In chunks through a buffer on the stack: writing the string
+		// as []byte(s) would copy each text to the heap first.
+		for len(s) > 0 {
+			n := copy(chunk[:], s)
+			h.Write(chunk[:n])
+			s = s[n:]
+		}
 	}
 	field(p.Title)
 	num = strconv.AppendInt(num[:0], int64(len(p.Heading)), 10)
@@ -98,11 +104,28 @@ func catalogOf(ps []build.Passage) *catalog {
 	return c
 }
 
+// catalogFileData is a catalog as saved: by column, which gob encodes
+// and decodes in bulk (a [32]byte array it would take byte by byte).
+type catalogFileData struct {
+	BundleID string
+	Size     int64
+	IDs      []string
+	Content  []byte // the sums, one after another
+	Offs     []int64
+	Lens     []int64
+}
+
 // saveCatalog writes c into out's cache folder, with a checksum.
 func saveCatalog(out string, c *catalog) error {
+	f := catalogFileData{BundleID: c.BundleID, Size: c.Size, IDs: make([]string, len(c.Entries)),
+		Content: make([]byte, 0, sha256.Size*len(c.Entries)), Offs: make([]int64, len(c.Entries)), Lens: make([]int64, len(c.Entries))}
+	for i, e := range c.Entries {
+		f.IDs[i], f.Offs[i], f.Lens[i] = e.ID, e.Off, e.Len
+		f.Content = append(f.Content, e.Content[:]...)
+	}
 	var buf bytes.Buffer
 	buf.WriteString(strconv.Itoa(catalogLayout) + "\n")
-	if err := gob.NewEncoder(&buf).Encode(c); err != nil {
+	if err := gob.NewEncoder(&buf).Encode(&f); err != nil {
 		return err
 	}
 	buf.Write(binary.LittleEndian.AppendUint32(nil, crc32.Checksum(buf.Bytes(), castagnoli)))
@@ -123,14 +146,24 @@ func loadCatalog(out string, m *Manifest, size int64) (*catalog, error) {
 		crc32.Checksum(data[:len(data)-4], castagnoli) != binary.LittleEndian.Uint32(data[len(data)-4:]) {
 		return nil, errors.New("catalog: torn, altered or of another layout")
 	}
-	var c catalog
-	if err := gob.NewDecoder(bytes.NewReader(data[len(head) : len(data)-4])).Decode(&c); err != nil {
+	var f catalogFileData
+	if err := gob.NewDecoder(bytes.NewReader(data[len(head) : len(data)-4])).Decode(&f); err != nil {
 		return nil, fmt.Errorf("catalog: %v", err)
 	}
-	if c.BundleID != m.BundleID || c.Size != size {
+	if f.BundleID != m.BundleID || f.Size != size {
 		return nil, errors.New("catalog: of another bundle")
 	}
-	return &c, nil
+	n := len(f.IDs)
+	if len(f.Content) != n*sha256.Size || len(f.Offs) != n || len(f.Lens) != n {
+		return nil, errors.New("catalog: columns of different lengths")
+	}
+	c := &catalog{BundleID: f.BundleID, Size: f.Size, Entries: make([]catalogEntry, n)}
+	for i := range c.Entries {
+		e := &c.Entries[i]
+		e.ID, e.Off, e.Len = f.IDs[i], f.Offs[i], f.Lens[i]
+		copy(e.Content[:], f.Content[i*sha256.Size:])
+	}
+	return c, nil
 }
 
 // readCatalogLines reads the passages of the catalog entries at idx from the

@@ -126,7 +126,8 @@ func write(out string, in *Input, hook func(tmp string) error) (_ *Manifest, err
 }
 
 // encodeLines encodes each passage, in order, as one compact line of
-// JSON, on several goroutines; the lines share one buffer per goroutine.
+// JSON (appendPassage), on several goroutines; the lines share one buffer
+// per goroutine.
 func encodeLines(ps []build.Passage, order []int) ([][]byte, error) {
 	lines := make([][]byte, len(order))
 	workers := min(runtime.GOMAXPROCS(0), max(len(order), 1))
@@ -149,23 +150,27 @@ func encodeLines(ps []build.Passage, order []int) ([][]byte, error) {
 					size += len(a) + 3
 				}
 			}
-			var buf bytes.Buffer
-			buf.Grow(size + size/16)
-			enc := json.NewEncoder(&buf)
-			enc.SetEscapeHTML(false)
+			buf := make([]byte, 0, size+size/16)
 			ends := make([]int, 0, hi-lo)
 			for _, i := range order[lo:hi] {
 				p := ps[i]
 				if p.Heading == nil {
 					p.Heading = []string{} // "heading" is always an array
 				}
-				if err := enc.Encode(&p); err != nil {
-					errs[w] = fmt.Errorf("passage %s: %w", p.ID, err)
-					return
+				var ok bool
+				if buf, ok = appendPassage(buf, &p); !ok {
+					var line bytes.Buffer
+					enc := json.NewEncoder(&line)
+					enc.SetEscapeHTML(false)
+					if err := enc.Encode(&p); err != nil {
+						errs[w] = fmt.Errorf("passage %s: %w", p.ID, err)
+						return
+					}
+					buf = append(buf, line.Bytes()...)
 				}
-				ends = append(ends, buf.Len())
+				ends = append(ends, len(buf))
 			}
-			all, start := buf.Bytes(), 0
+			all, start := buf, 0
 			for k, end := range ends {
 				lines[lo+k] = all[start:end:end]
 				start = end
@@ -210,6 +215,18 @@ func checkInput(in *Input) error {
 	bad := func(p *build.Passage, format string, args ...any) {
 		errs = append(errs, &sources.Error{Path: p.Path, Line: p.Line, Msg: fmt.Sprintf(format, args...)})
 	}
+	// The text checks read every byte: on all cores.
+	badText := make([]bool, len(in.Passages))
+	workers := runtime.GOMAXPROCS(0)
+	var wg sync.WaitGroup
+	for w := range workers {
+		wg.Go(func() {
+			for i := w; i < len(in.Passages); i += workers {
+				badText[i] = !validUTF8(&in.Passages[i])
+			}
+		})
+	}
+	wg.Wait()
 	seen := make(map[string]bool, len(in.Passages))
 	for i := range in.Passages {
 		p := &in.Passages[i]
@@ -229,7 +246,7 @@ func checkInput(in *Input) error {
 		if p.Tokens < 0 {
 			bad(p, "passage %s has %d tokens", p.ID, p.Tokens)
 		}
-		if !validUTF8(p) {
+		if badText[i] {
 			bad(p, "passage %s holds invalid UTF-8", p.ID)
 		}
 		if !isHexHash(p.Hash) {
