@@ -36,8 +36,9 @@ type Tokenizer struct {
 	name string
 	// codec loads the library's vocabulary on first use: a rebuild that
 	// takes every passage from the cache never needs it.
-	codec func() (tokenizer.Codec, error)
-	cache pieceCache
+	codec   func() (tokenizer.Codec, error)
+	preload sync.Once
+	cache   pieceCache
 }
 
 // NewTokenizer returns the tokenizer called name. Only "cl100k_base" (the
@@ -54,6 +55,10 @@ func NewTokenizer(name string) (*Tokenizer, error) {
 	t.cache.init()
 	return t, nil
 }
+
+// Preload starts loading the vocabulary in the background, for a caller
+// that knows it will count tokens soon; Count waits for it.
+func (t *Tokenizer) Preload() { t.preload.Do(func() { go t.codec() }) }
 
 // Name returns the encoding name the tokenizer was made with.
 func (t *Tokenizer) Name() string { return t.name }
