@@ -8,6 +8,7 @@ import (
 	"fmt"
 	"os"
 	"path/filepath"
+	"reflect"
 	"strings"
 	"testing"
 	"time"
@@ -324,6 +325,100 @@ func TestCorpora(t *testing.T) {
 				t.Errorf("verify after one flipped bit = %v, %v; want passages.jsonl named", bad, err)
 			}
 			t.Logf("%d passages from %d files", len(ps), len(lines))
+		})
+	}
+}
+
+// TestCorporaIncremental: on each real corpus, one edited page gives a
+// rebuild from the cache whose bundle is byte for byte a clean build's,
+// whose delta.json lists exactly what changed (checked against Diff of the
+// two bundles' passages), all on the edited page, and whose index, updated
+// in place, finds the new sentence.
+func TestCorporaIncremental(t *testing.T) {
+	dir := os.Getenv("KBC_CORPORA")
+	if dir == "" {
+		t.Skip("KBC_CORPORA is not set: fetch the corpora with ../shared/corpora/get-corpora.sh DIR and set KBC_CORPORA=DIR")
+	}
+	entries, err := os.ReadDir(dir)
+	if err != nil {
+		t.Skipf("KBC_CORPORA=%s: %v", dir, err)
+	}
+	t.Setenv("SOURCE_DATE_EPOCH", "1796083200")
+	for _, e := range entries {
+		if !e.IsDir() || strings.HasPrefix(e.Name(), ".") {
+			continue
+		}
+		t.Run(e.Name(), func(t *testing.T) {
+			src := copyTree(t, filepath.Join(dir, e.Name()), time.Date(2026, 10, 1, 8, 0, 0, 0, time.UTC))
+			out := filepath.Join(t.TempDir(), "b")
+			mustBuild(t, src, out)
+			before := readPassages(t, out)
+			mid := before[len(before)/2]
+			page := mid.Path
+			file := filepath.Join(src, filepath.FromSlash(page))
+			data := mustRead(t, file)
+			note := "A note added for the incremental test: quokka seals are checked every 30 days."
+			if strings.HasSuffix(page, ".html") || strings.HasSuffix(page, ".htm") {
+				// A paragraph just before the line a passage starts on:
+				// inside the page's content, not its chrome.
+				lines := bytes.SplitAfter(data, []byte("\n"))
+				at := mid.Line - 1
+				lines[at] = append([]byte("<p>"+note+"</p>\n"), lines[at]...)
+				data = bytes.Join(lines, nil)
+			} else {
+				data = append(data, "\n\n"+note+"\n"...)
+			}
+			if err := os.WriteFile(file, data, 0o644); err != nil {
+				t.Fatal(err)
+			}
+			stdout, _ := mustBuild(t, src, out)
+			if !strings.Contains(stdout, "unchanged, taken from the cache") {
+				t.Errorf("the rebuild took nothing from the cache:\n%s", stdout)
+			}
+			clean := filepath.Join(t.TempDir(), "clean")
+			mustBuild(t, src, clean)
+			if a, b := mustRead(t, filepath.Join(out, "passages.jsonl")), mustRead(t, filepath.Join(clean, "passages.jsonl")); !bytes.Equal(a, b) {
+				t.Fatal("passages.jsonl of the rebuild differs from a clean build's")
+			}
+			after := readPassages(t, out)
+			var delta bundle.Delta
+			if err := json.Unmarshal(mustRead(t, filepath.Join(out, bundle.DeltaFile)), &delta); err != nil {
+				t.Fatal(err)
+			}
+			want := bundle.Diff(before, after)
+			if !reflect.DeepEqual(delta.Added, want.Added) || !reflect.DeepEqual(delta.Changed, want.Changed) || !reflect.DeepEqual(delta.Removed, want.Removed) {
+				t.Errorf("delta.json %+v\nDiff gives %+v", delta, want)
+			}
+			if delta.Empty() {
+				t.Error("the edit is not in the delta")
+			}
+			pathOf := map[string]string{}
+			for _, ps := range [][]build.Passage{before, after} {
+				for _, p := range ps {
+					pathOf[p.ID] = p.Path
+				}
+			}
+			ids := append(append([]string{}, delta.Added...), delta.Removed...)
+			for _, c := range delta.Changed {
+				ids = append(ids, c.ID)
+			}
+			for _, id := range ids {
+				if pathOf[id] != page {
+					t.Errorf("delta names %s of %s; only %s was edited", id, pathOf[id], page)
+				}
+			}
+			b, err := bundle.Open(out)
+			if err != nil {
+				t.Fatal(err)
+			}
+			defer b.Close()
+			hits, err := b.Search("quokka", 3)
+			if err != nil || len(hits) == 0 || hits[0].Path != page {
+				t.Errorf("search for the new sentence: %+v, %v", hits, err)
+			}
+			if bad, err := bundle.Verify(out); err != nil || len(bad) > 0 {
+				t.Errorf("verify: %v %v", bad, err)
+			}
 		})
 	}
 }
