@@ -5,6 +5,7 @@ import (
 	"encoding/binary"
 	"encoding/hex"
 	"encoding/json"
+	"fmt"
 	"sort"
 	"sync"
 	"time"
@@ -65,26 +66,27 @@ type CacheEntry struct {
 	FrontJSON []byte            // the document's front matter as JSON
 	Keys      []BlockKey        // BlockKeys(Doc)
 	Fail      *sources.Error    // why the file was left out, instead of Doc
-	Boiler    string            // digest of the Keys that were boilerplate when Passages were made
+	SplitKey  string            // splitKey of the split settings and the page's boilerplate when Passages were made
 	Passages  []Passage         // Split's result, before dates are stamped
 	Dropped   int               // boilerplate blocks left out of Passages
 }
 
-// NewCache returns an empty cache for the given tool version and settings.
-func NewCache(tool string, s Settings) *Cache {
-	return &Cache{key: cacheKey(tool, s), entries: map[string]*CacheEntry{}, dirty: map[string]bool{}, all: true}
+// NewCache returns an empty cache for the given tool version. Settings do
+// not key the whole cache: a page's parse does not depend on them, and its
+// passages are keyed by the split settings they were made with (splitKey).
+func NewCache(tool string) *Cache {
+	return &Cache{key: cacheKey(tool), entries: map[string]*CacheEntry{}, dirty: map[string]bool{}, all: true}
 }
 
-func cacheKey(tool string, s Settings) string {
-	data, _ := json.Marshal(s)
-	h := sha256.Sum256(append([]byte(tool+"\x00"), data...))
+func cacheKey(tool string) string {
+	h := sha256.Sum256([]byte(tool))
 	return hex.EncodeToString(h[:])
 }
 
-// Fits reports whether c was made by this tool version with these
-// settings, so its entries can be trusted.
-func (c *Cache) Fits(tool string, s Settings) bool {
-	return c != nil && c.key == cacheKey(tool, s) && c.entries != nil
+// Fits reports whether c was made by this tool version, so its entries
+// can be trusted.
+func (c *Cache) Fits(tool string) bool {
+	return c != nil && c.key == cacheKey(tool) && c.entries != nil
 }
 
 // Changed reports whether a Run since the cache was loaded or saved
@@ -217,29 +219,29 @@ func (c *Cache) store(file sources.File, hash string, d *sources.Document, keys 
 }
 
 // passages returns the cached split of path, and the number of
-// boilerplate blocks it left out, when the boilerplate on the page is the
-// same as when it was made.
-func (c *Cache) passages(path, boiler string) ([]Passage, int, bool) {
+// boilerplate blocks it left out, when it was made with the same split
+// settings and the same boilerplate on the page (key, from splitKey).
+func (c *Cache) passages(path, key string) ([]Passage, int, bool) {
 	if c == nil {
 		return nil, 0, false
 	}
 	c.mu.Lock()
 	defer c.mu.Unlock()
 	e := c.entries[path]
-	if e == nil || e.Passages == nil || e.Boiler != boiler {
+	if e == nil || e.Passages == nil || e.SplitKey != key {
 		return nil, 0, false
 	}
 	return append([]Passage(nil), e.Passages...), e.Dropped, true
 }
 
-func (c *Cache) storePassages(path, boiler string, ps []Passage, dropped int) {
+func (c *Cache) storePassages(path, key string, ps []Passage, dropped int) {
 	if c == nil {
 		return
 	}
 	c.mu.Lock()
 	defer c.mu.Unlock()
 	if e := c.entries[path]; e != nil {
-		e.Boiler, e.Passages, e.Dropped = boiler, append([]Passage{}, ps...), dropped
+		e.SplitKey, e.Passages, e.Dropped = key, append([]Passage{}, ps...), dropped
 		c.touch(path)
 	}
 }
@@ -259,8 +261,16 @@ func (c *Cache) keep(paths map[string]bool) {
 	}
 }
 
-// boilerDigest names which of a document's block keys are boilerplate.
-func boilerDigest(keys []BlockKey, b *Boilerplate) string {
+// splitSettings names the settings Split reads, for splitKey. The
+// boilerplate thresholds are not among them: what they decide shows in
+// which of a page's blocks are boilerplate, which splitKey hashes.
+func splitSettings(s Settings) string {
+	return fmt.Sprintf("%d %d %d %s", s.AimTokens, s.MaxTokens, s.MinTokens, s.Tokenizer)
+}
+
+// splitKey names everything a page's passages depend on beyond its bytes:
+// the split settings and which of its block keys are boilerplate.
+func splitKey(settings string, keys []BlockKey, b *Boilerplate) string {
 	var on []BlockKey
 	for _, k := range keys {
 		if b.Has(k) {
@@ -269,6 +279,7 @@ func boilerDigest(keys []BlockKey, b *Boilerplate) string {
 	}
 	sort.Slice(on, func(i, j int) bool { return on[i] < on[j] })
 	h := sha256.New()
+	h.Write([]byte(settings + "\x00"))
 	var buf [8]byte
 	for _, k := range on {
 		binary.LittleEndian.PutUint64(buf[:], uint64(k))

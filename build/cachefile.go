@@ -30,7 +30,7 @@ import (
 // found out before anything in it is used. Every header carries the
 // layout version and the cache key, and all files must agree on them.
 const (
-	cacheLayout = 2
+	cacheLayout = 3
 	cacheShards = 16
 	stateFile   = "state.gob"
 )

@@ -9,6 +9,7 @@ import (
 	"os"
 	"path/filepath"
 	"reflect"
+	"strings"
 	"testing"
 	"testing/fstest"
 	"time"
@@ -53,7 +54,7 @@ func TestCacheSaveLoad(t *testing.T) {
 	dir := t.TempDir()
 	clean := runWith(t, fsys, nil)
 
-	c := NewCache("test", DefaultSettings())
+	c := NewCache("test")
 	runWith(t, fsys, c)
 	if err := c.Save(dir); err != nil {
 		t.Fatal(err)
@@ -65,8 +66,8 @@ func TestCacheSaveLoad(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if !loaded.Fits("test", DefaultSettings()) || loaded.Fits("test 2", DefaultSettings()) {
-		t.Error("a loaded cache does not know its tool and settings")
+	if !loaded.Fits("test") || loaded.Fits("test 2") {
+		t.Error("a loaded cache does not know its tool version")
 	}
 	if loaded.dedupe == nil || loaded.memos[0] == nil || loaded.memos[0].Len() == 0 || loaded.memos[1] == nil {
 		t.Error("the duplicate stage's memos were not loaded")
@@ -139,7 +140,7 @@ func TestLoadCacheRejects(t *testing.T) {
 	}
 	save := func(tool string) string {
 		dir := t.TempDir()
-		c := NewCache(tool, DefaultSettings())
+		c := NewCache(tool)
 		runWith(t, cachedTree(), c)
 		if err := c.Save(dir); err != nil {
 			t.Fatal(err)
@@ -193,7 +194,7 @@ func TestLoadCacheRejects(t *testing.T) {
 // every damaged file before gob sees it; this covers what passes it.)
 func FuzzReadShard(f *testing.F) {
 	dir := f.TempDir()
-	c := NewCache("test", DefaultSettings())
+	c := NewCache("test")
 	opts := DefaultOptions()
 	opts.Cache = c
 	if _, err := Run(context.Background(), cachedTree(), opts); err != nil {
@@ -211,4 +212,43 @@ func FuzzReadShard(f *testing.F) {
 		sum := crc32.Checksum(body, castagnoli)
 		decodeShard("entries.gob", binary.LittleEndian.AppendUint32(append([]byte(nil), body...), sum))
 	})
+}
+
+// TestCacheSettingsChange: a change of the split settings re-splits every
+// page without parsing any again, and the result is a clean run's with the
+// new settings; going back reuses nothing stale.
+func TestCacheSettingsChange(t *testing.T) {
+	fsys := cachedTree()
+	var long strings.Builder
+	long.WriteString("# Yard rules\n")
+	for i := range 8 {
+		fmt.Fprintf(&long, "\n## Rule %d\n\nDrivers keep to lane %d in the yard, stop at the white line before the dock, and wait for the marshal's signal before reversing a reefer trailer onto bay %d.\n", i, i, i)
+	}
+	fsys["yard/rules.md"] = &fstest.MapFile{ModTime: time.Now().Add(-time.Hour), Data: []byte(long.String())}
+	c := NewCache("test")
+	run := func(aim int, cache *Cache) *Result {
+		t.Helper()
+		opts := DefaultOptions()
+		opts.Settings.AimTokens = aim
+		opts.Cache = cache
+		opts.Now = time.Date(2026, 12, 1, 0, 0, 0, 0, time.UTC)
+		res, err := Run(context.Background(), fsys, opts)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return res
+	}
+	first := run(300, c)
+	for _, aim := range []int{64, 300} {
+		got, want := run(aim, c), run(aim, nil)
+		if aim != 300 && len(got.Passages) == len(first.Passages) {
+			t.Fatalf("aim %d makes as many passages as aim 300: the test shows nothing", aim)
+		}
+		if got.Stats.Reused != got.Stats.Documents {
+			t.Errorf("aim %d: parsed %d pages again after a settings change", aim, got.Stats.Documents-got.Stats.Reused)
+		}
+		if !reflect.DeepEqual(got.Passages, want.Passages) {
+			t.Errorf("aim %d: passages differ from a clean run's", aim)
+		}
+	}
 }

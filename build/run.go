@@ -42,8 +42,9 @@ type Options struct {
 	// Dedupe configures the duplicate stage.
 	Dedupe dedupe.Options
 	// Cache, when set, holds the per-document results of earlier builds:
-	// Run reuses the entries whose content is unchanged and updates the
-	// rest. It must fit the settings (Cache.Fits).
+	// Run reuses the entries whose content is unchanged (their passages
+	// while the split settings and the page's boilerplate are the same)
+	// and updates the rest. It must fit the tool version (Cache.Fits).
 	Cache *Cache
 }
 
@@ -240,6 +241,7 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 
 	// Stage 4: strip boilerplate and split each document into passages,
 	// which inherit their document's dates and owner.
+	splitSet := splitSettings(s)
 	parts := make([][]Passage, len(docs))
 	dropped := make([]int, len(docs))
 	lost := make([]*sources.Error, len(docs)) // could not be read again
@@ -253,7 +255,7 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 			var digest string
 			ok := false
 			if opts.Cache != nil {
-				digest = boilerDigest(keys[i], bp)
+				digest = splitKey(splitSet, keys[i], bp)
 				parts[i], dropped[i], ok = opts.Cache.passages(d.Path, digest)
 			}
 			if !ok {

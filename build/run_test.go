@@ -83,7 +83,7 @@ func TestCacheTrustsOnlySettledFiles(t *testing.T) {
 		"racy.md":    {Data: []byte("# Racy\n\nChecked every 30 days."), ModTime: time.Now()},
 	}
 	opts := DefaultOptions()
-	opts.Cache = NewCache("test", opts.Settings)
+	opts.Cache = NewCache("test")
 	if _, err := Run(context.Background(), fsys, opts); err != nil {
 		t.Fatal(err)
 	}
@@ -126,7 +126,7 @@ func TestCachedPagesReadAgain(t *testing.T) {
 		fsys[fmt.Sprintf("bay%02d.md", i)] = page(i, i < 2) // 2 of 10: not boilerplate
 	}
 	opts := DefaultOptions()
-	opts.Cache = NewCache("test", opts.Settings)
+	opts.Cache = NewCache("test")
 	first, err := Run(context.Background(), fsys, opts)
 	if err != nil {
 		t.Fatal(err)

@@ -171,7 +171,7 @@ func compile(ctx context.Context, fs *flag.FlagSet, sf *sourceFlags, src string,
 	opts.Now = now
 	opts.GitDir = src
 	if sess != nil {
-		opts.Cache = sess.cacheFor(opts.Settings, stderr)
+		opts.Cache = sess.cacheFor(stderr)
 	}
 	bar := newProgress(stderr)
 	opts.Progress = bar.update
@@ -199,13 +199,15 @@ type session struct {
 	commitKnown bool
 }
 
-// cacheFor returns the build cache for these settings: the one in memory
-// when it fits, else the one on disk when it fits, else a new one. A cache
-// that cannot be read, or was made by another kbc version or with other
-// settings, is reported once and replaced: it is never trusted.
-func (s *session) cacheFor(set build.Settings, stderr io.Writer) *build.Cache {
+// cacheFor returns the build cache: the one in memory when there is one,
+// else the one on disk when this kbc version made it, else a new one. A
+// cache that cannot be read, or was made by another kbc version, is
+// reported once and replaced: it is never trusted. (Settings key the
+// cached passages inside it, so a settings change re-splits pages without
+// parsing them again.)
+func (s *session) cacheFor(stderr io.Writer) *build.Cache {
 	tool := "kbc " + version
-	if s.cache.Fits(tool, set) {
+	if s.cache.Fits(tool) {
 		return s.cache
 	}
 	c, err := build.LoadCache(bundle.CacheDir(s.out))
@@ -215,12 +217,12 @@ func (s *session) cacheFor(set build.Settings, stderr io.Writer) *build.Cache {
 	case err != nil:
 		fmt.Fprintf(stderr, "kbc: build cache unreadable (%v); rebuilding it\n", err)
 		c = nil
-	case c != nil && !c.Fits(tool, set):
-		fmt.Fprintf(stderr, "kbc: build cache %s was made by another kbc version or other settings; rebuilding it\n", bundle.CacheDir(s.out))
+	case c != nil && !c.Fits(tool):
+		fmt.Fprintf(stderr, "kbc: build cache %s was made by another kbc version; rebuilding it\n", bundle.CacheDir(s.out))
 		c = nil
 	}
 	if c == nil {
-		c = build.NewCache(tool, set)
+		c = build.NewCache(tool)
 	}
 	s.cache = c
 	return c
