@@ -11,6 +11,7 @@ import (
 	"time"
 
 	"github.com/kbc-project/kbc/build/dedupe"
+	"github.com/kbc-project/kbc/build/fresh"
 	"github.com/kbc-project/kbc/sources"
 )
 
@@ -28,6 +29,8 @@ type Cache struct {
 	// dedupe is the duplicate stage's last outcome, reused when its whole
 	// input is the same.
 	dedupe *DedupeMemo
+	// git is what the last build read of the source's git history.
+	git *fresh.GitHistory
 
 	mu sync.Mutex
 	// dirty holds the paths whose entries changed since the cache was
@@ -308,6 +311,20 @@ func (c *Cache) dedupeMemo(digest string) *DedupeMemo {
 		return c.dedupe
 	}
 	return nil
+}
+
+func (c *Cache) gitHistory() *fresh.GitHistory {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	return c.git
+}
+
+func (c *Cache) storeGitHistory(h *fresh.GitHistory) {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	if h != c.git {
+		c.git, c.state = h, true
+	}
 }
 
 func (c *Cache) storeDedupe(m *DedupeMemo) {

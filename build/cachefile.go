@@ -17,13 +17,14 @@ import (
 	"github.com/cespare/xxhash/v2"
 
 	"github.com/kbc-project/kbc/build/dedupe"
+	"github.com/kbc-project/kbc/build/fresh"
 )
 
 // The build cache on disk is a folder of files, so that a rebuild after one
 // page changed rewrites a few of them, not the whole cache:
 //
 //	entries-00.gob ... entries-0f.gob  the entries, spread by a hash of their path
-//	state.gob                          the duplicate stage's outcome and hashing memos
+//	state.gob                          the duplicate stage's outcome and hashing memos, the git dates
 //
 // Each file is a gob stream (a header, then its records) followed by the
 // stream's CRC-32C in 4 little-endian bytes: a torn or altered file is
@@ -56,6 +57,7 @@ type cacheRecord struct {
 type cacheState struct {
 	Dedupe *DedupeMemo
 	Memos  [2][]byte // dedupe.Memo.MarshalBinary, real and masked texts; nil: none
+	Git    *fresh.GitHistory
 }
 
 var castagnoli = crc32.MakeTable(crc32.Castagnoli)
@@ -119,7 +121,7 @@ func LoadCache(dir string) (*Cache, error) {
 	// The state only saves work: a missing or unreadable one is not worth
 	// discarding the entries for.
 	if stateErr == nil && stateKey == c.key {
-		c.dedupe = state.Dedupe
+		c.dedupe, c.git = state.Dedupe, state.Git
 		for i, data := range state.Memos {
 			if data == nil {
 				continue
@@ -192,7 +194,7 @@ func (c *Cache) Save(dir string) error {
 
 // saveState writes the state file; c.mu must be held.
 func (c *Cache) saveState(dir string) error {
-	st := cacheState{Dedupe: c.dedupe}
+	st := cacheState{Dedupe: c.dedupe, Git: c.git}
 	for i, m := range c.memos {
 		if m == nil {
 			continue

@@ -120,7 +120,14 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 			gitc <- gitResult{}
 			return
 		}
-		d, err := fresh.GitDates(ctx, opts.GitDir)
+		if opts.Cache == nil {
+			d, err := fresh.GitDates(ctx, opts.GitDir)
+			gitc <- gitResult{d, err}
+			return
+		}
+		// From what the last build read: only the commits since.
+		d, h, err := fresh.GitDatesFrom(ctx, opts.GitDir, opts.Cache.gitHistory())
+		opts.Cache.storeGitHistory(h)
 		gitc <- gitResult{d, err}
 	}()
 

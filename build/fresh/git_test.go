@@ -509,7 +509,8 @@ func generateRepo(b *testing.B, git, dir string, nFiles, nCommits int) int {
 	next := nFiles
 	for c := range nCommits {
 		when += 3600 + rng.Int64N(86400)
-		fmt.Fprintf(&s, "commit refs/heads/main\ncommitter Bench <bench@example.invalid> %d +0000\ndata 4\nc%03d\n", when, c)
+		msg := fmt.Sprintf("c%03d", c)
+		fmt.Fprintf(&s, "commit refs/heads/main\ncommitter Bench <bench@example.invalid> %d +0000\ndata %d\n%s\n", when, len(msg), msg)
 		if c == 0 {
 			for i, p := range live {
 				blob(p, page(i, 0))
