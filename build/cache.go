@@ -104,6 +104,20 @@ func (c *Cache) Changed() bool {
 // touch marks path's entry as changed; c.mu must be held.
 func (c *Cache) touch(path string) { c.dirty[path] = true }
 
+// FileHash returns the SHA-256 (hex) of the bytes of path that the last
+// Run using c read, or "" when c holds no such file.
+func (c *Cache) FileHash(path string) string {
+	if c == nil {
+		return ""
+	}
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	if e := c.entries[path]; e != nil {
+		return e.Hash
+	}
+	return ""
+}
+
 // lookup returns the entry for path when its content hash is hash.
 func (c *Cache) lookup(path, hash string) *CacheEntry {
 	if c == nil {
@@ -245,6 +259,19 @@ func (c *Cache) storePassages(path, key string, ps []Passage, dropped int) {
 	defer c.mu.Unlock()
 	if e := c.entries[path]; e != nil {
 		e.SplitKey, e.Passages, e.Dropped = key, append([]Passage{}, ps...), dropped
+		c.touch(path)
+	}
+}
+
+// forget drops the entry of path.
+func (c *Cache) forget(path string) {
+	if c == nil {
+		return
+	}
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	if _, ok := c.entries[path]; ok {
+		delete(c.entries, path)
 		c.touch(path)
 	}
 }

@@ -191,7 +191,13 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 	// full returns document i with its blocks, reading it again when it
 	// came from the cache.
 	full := func(i int) (*sources.Document, *sources.Error) {
-		return withBlocks(fsys, files[i], docs[i], blocks[i], opts.Walk.MaxSize)
+		d, fail := withBlocks(fsys, files[i], docs[i], blocks[i], opts.Walk.MaxSize)
+		if fail != nil {
+			// Its entry no longer describes the file: the next build
+			// reads it afresh, whatever its size and time say.
+			opts.Cache.forget(files[i].Path)
+		}
+		return d, fail
 	}
 	res.Stats.Skipped += len(walkErrs)
 

@@ -175,4 +175,16 @@ func TestCachedPagesReadAgain(t *testing.T) {
 	if !found || len(res.Passages) == 0 {
 		t.Errorf("problems %v, %d passages", res.Problems, len(res.Passages))
 	}
+	// The next build reads the page afresh and takes its new text.
+	res, err = Run(context.Background(), fsys, opts)
+	if err != nil {
+		t.Fatal(err)
+	}
+	plainRes, err := Run(context.Background(), fsys, plain)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !reflect.DeepEqual(res.Passages, plainRes.Passages) || len(res.Problems) != len(plainRes.Problems) {
+		t.Errorf("the build after: problems %v; passages equal a clean run's: %v", res.Problems, reflect.DeepEqual(res.Passages, plainRes.Passages))
+	}
 }

@@ -51,17 +51,3 @@ func Racy(files []sources.File, t time.Time) []sources.File {
 	}
 	return out
 }
-
-// FileHash returns the SHA-256 (hex) of the bytes of path that the last
-// Run using c read, or "" when c holds no such file.
-func (c *Cache) FileHash(path string) string {
-	if c == nil {
-		return ""
-	}
-	c.mu.Lock()
-	defer c.mu.Unlock()
-	if e := c.entries[path]; e != nil {
-		return e.Hash
-	}
-	return ""
-}

@@ -12,9 +12,7 @@ import (
 	"hash/crc32"
 	"os"
 	"path/filepath"
-	"runtime"
 	"strconv"
-	"sync"
 
 	"github.com/kbc-project/kbc/build"
 )
@@ -76,16 +74,7 @@ func contentSum(p *build.Passage) [sha256.Size]byte {
 // contentSums returns contentSum of each passage, on several goroutines.
 func contentSums(ps []build.Passage, order []int) [][sha256.Size]byte {
 	sums := make([][sha256.Size]byte, len(order))
-	workers := runtime.GOMAXPROCS(0)
-	var wg sync.WaitGroup
-	for w := range workers {
-		wg.Go(func() {
-			for j := w; j < len(order); j += workers {
-				sums[j] = contentSum(&ps[order[j]])
-			}
-		})
-	}
-	wg.Wait()
+	forEach(len(order), func(j int) { sums[j] = contentSum(&ps[order[j]]) })
 	return sums
 }
 

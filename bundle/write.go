@@ -105,8 +105,7 @@ func write(out string, in *Input, hook func(tmp string) error) (_ *Manifest, err
 			os.RemoveAll(tmp)
 		}
 	}()
-	var cat *catalog
-	m, err := writeTree(tmp, in, &cat)
+	m, cat, err := writeTree(tmp, in)
 	if err == nil && hook != nil {
 		err = hook(tmp)
 	}
@@ -123,6 +122,21 @@ func write(out string, in *Input, hook func(tmp string) error) (_ *Manifest, err
 		}
 	}
 	return m, nil
+}
+
+// forEach calls fn(i) for each i in [0, n) on GOMAXPROCS goroutines;
+// fn must write only to slot i of whatever it fills.
+func forEach(n int, fn func(i int)) {
+	workers := runtime.GOMAXPROCS(0)
+	var wg sync.WaitGroup
+	for w := range workers {
+		wg.Go(func() {
+			for i := w; i < n; i += workers {
+				fn(i)
+			}
+		})
+	}
+	wg.Wait()
 }
 
 // encodeLines encodes each passage, in order, as one compact line of
@@ -217,16 +231,7 @@ func checkInput(in *Input) error {
 	}
 	// The text checks read every byte: on all cores.
 	badText := make([]bool, len(in.Passages))
-	workers := runtime.GOMAXPROCS(0)
-	var wg sync.WaitGroup
-	for w := range workers {
-		wg.Go(func() {
-			for i := w; i < len(in.Passages); i += workers {
-				badText[i] = !validUTF8(&in.Passages[i])
-			}
-		})
-	}
-	wg.Wait()
+	forEach(len(in.Passages), func(i int) { badText[i] = !validUTF8(&in.Passages[i]) })
 	seen := make(map[string]bool, len(in.Passages))
 	for i := range in.Passages {
 		p := &in.Passages[i]
@@ -335,14 +340,14 @@ func sortedOrder(ps []build.Passage) []int {
 
 // writeTree writes the whole bundle into the empty folder dir and flushes
 // it to stable storage.
-// It also returns, through saved, the catalog of the bundle's passages.
-func writeTree(dir string, in *Input, saved **catalog) (*Manifest, error) {
+// It also returns the catalog of the bundle's passages.
+func writeTree(dir string, in *Input) (*Manifest, *catalog, error) {
 	if err := os.Chmod(dir, 0o755); err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 	settings, err := canonicalJSON(in.Settings)
 	if err != nil {
-		return nil, fmt.Errorf("settings: %w", err)
+		return nil, nil, fmt.Errorf("settings: %w", err)
 	}
 	m := &Manifest{
 		Format:       FormatVersion,
@@ -380,7 +385,7 @@ func writeTree(dir string, in *Input, saved **catalog) (*Manifest, error) {
 	sums := contentSums(in.Passages, order)
 	lines, err := encodeLines(in.Passages, order)
 	if err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 	m.Files[PassagesFile], err = writeFile(dir, PassagesFile, func(w io.Writer) error {
 		bw := bufio.NewWriterSize(w, 1<<16)
@@ -397,11 +402,10 @@ func writeTree(dir string, in *Input, saved **catalog) (*Manifest, error) {
 		return bw.Flush()
 	})
 	if err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 	m.BundleID = strings.TrimPrefix(m.Files[PassagesFile], "sha256:")
 	cat.BundleID = m.BundleID
-	*saved = cat
 
 	// delta.json: what changed against the bundle this one replaces.
 	prior := &catalog{}
@@ -409,7 +413,7 @@ func writeTree(dir string, in *Input, saved **catalog) (*Manifest, error) {
 		if in.Prior.ID == m.BundleID {
 			prior = cat // the same bytes: nothing to compare
 		} else if prior, err = in.Prior.catalog(); err != nil {
-			return nil, fmt.Errorf("reading the bundle replaced: %w", err)
+			return nil, nil, fmt.Errorf("reading the bundle replaced: %w", err)
 		}
 	}
 	d := diffCatalogs(prior, cat)
@@ -426,12 +430,12 @@ func writeTree(dir string, in *Input, saved **catalog) (*Manifest, error) {
 		return err
 	})
 	if err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 
 	m.Files[SchemaFile], err = writeFile(dir, SchemaFile, bytesWriter(schema))
 	if err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 
 	indexDir := filepath.Join(dir, filepath.FromSlash(IndexDir))
@@ -443,11 +447,11 @@ func writeTree(dir string, in *Input, saved **catalog) (*Manifest, error) {
 			st, err = buildIndex(indexDir, in.Passages, order, content)
 		}
 		if err != nil {
-			return nil, err
+			return nil, nil, err
 		}
 		stats, err = json.MarshalIndent(st, "", "  ")
 		if err != nil {
-			return nil, err
+			return nil, nil, err
 		}
 		stats = append(stats, '\n')
 	}
@@ -468,34 +472,33 @@ func writeTree(dir string, in *Input, saved **catalog) (*Manifest, error) {
 		return err
 	})
 	if err != nil {
-		return nil, fmt.Errorf("index: %w", err)
+		return nil, nil, fmt.Errorf("index: %w", err)
 	}
 	if stats != nil {
 		m.Files[StatsFile], err = writeFile(dir, StatsFile, bytesWriter(stats))
 		if err != nil {
-			return nil, err
+			return nil, nil, err
 		}
 	}
 
 	for name, data := range in.Files {
 		if err := os.MkdirAll(filepath.Join(dir, filepath.FromSlash(path.Dir(name))), 0o755); err != nil {
-			return nil, err
+			return nil, nil, err
 		}
 		m.Files[name], err = writeFile(dir, name, bytesWriter(data))
 		if err != nil {
-			return nil, err
+			return nil, nil, err
 		}
 	}
 
 	data, err := m.marshal()
 	if err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 	if _, err := writeFile(dir, ManifestFile, bytesWriter(data)); err != nil {
-		return nil, err
+		return nil, nil, err
 	}
-	err = syncDirs(dir)
-	return m, err
+	return m, cat, syncDirs(dir)
 }
 
 func bytesWriter(data []byte) func(io.Writer) error {
