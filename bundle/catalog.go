@@ -157,7 +157,7 @@ func loadCatalog(out string, m *Manifest, size int64) (*catalog, error) {
 
 // readCatalogLines reads the passages of the catalog entries at idx from the
 // passages.jsonl in dir, checking that each line holds the passage the
-// catalog says it does.
+// catalog says it does, with the same content.
 func readCatalogLines(dir string, c *catalog, idx []int) ([]build.Passage, error) {
 	name := filepath.Join(dir, PassagesFile)
 	f, err := os.Open(name)
@@ -181,6 +181,11 @@ func readCatalogLines(dir string, c *catalog, idx []int) ([]build.Passage, error
 		}
 		if err := json.Unmarshal(buf, &out[j]); err != nil || out[j].ID != e.ID {
 			return nil, fmt.Errorf("%s: passage %s is not where the catalog says", name, e.ID)
+		}
+		// The index statistics are corrected with this text: it must be
+		// what the catalog (and the index) hold, not an edit made since.
+		if contentSum(&out[j]) != e.Content {
+			return nil, fmt.Errorf("%s: passage %s differs from the catalog", name, e.ID)
 		}
 	}
 	return out, nil

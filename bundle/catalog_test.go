@@ -84,6 +84,11 @@ func TestCatalog(t *testing.T) {
 	if _, err := readCatalogLines(out, &moved, []int{7}); err == nil {
 		t.Error("a catalog entry pointing at another passage's line was read")
 	}
+	moved.Entries[7] = prior.cat.Entries[7]
+	moved.Entries[7].Content[0] ^= 1
+	if _, err := readCatalogLines(out, &moved, []int{7}); err == nil {
+		t.Error("a line whose content differs from the catalog's was read")
+	}
 
 	next := append([]build.Passage(nil), ps[1:]...)
 	next[3].Text += " and the alarm is logged"
