@@ -33,14 +33,22 @@ func cachedTree() fstest.MapFS {
 	return fsys
 }
 
-func runWith(t *testing.T, fsys fstest.MapFS, c *Cache) *Result {
-	t.Helper()
+func runWith(tb testing.TB, fsys fstest.MapFS, c *Cache) *Result {
+	tb.Helper()
+	return runSettings(tb, fsys, DefaultSettings(), c)
+}
+
+// runSettings runs a build of fsys with settings s and cache c (nil for
+// none) at a fixed time.
+func runSettings(tb testing.TB, fsys fstest.MapFS, s Settings, c *Cache) *Result {
+	tb.Helper()
 	opts := DefaultOptions()
+	opts.Settings = s
 	opts.Cache = c
 	opts.Now = time.Date(2026, 12, 1, 0, 0, 0, 0, time.UTC)
 	res, err := Run(context.Background(), fsys, opts)
 	if err != nil {
-		t.Fatal(err)
+		tb.Fatal(err)
 	}
 	return res
 }
@@ -195,11 +203,7 @@ func TestLoadCacheRejects(t *testing.T) {
 func FuzzReadShard(f *testing.F) {
 	dir := f.TempDir()
 	c := NewCache("test")
-	opts := DefaultOptions()
-	opts.Cache = c
-	if _, err := Run(context.Background(), cachedTree(), opts); err != nil {
-		f.Fatal(err)
-	}
+	runWith(f, cachedTree(), c)
 	if err := c.Save(dir); err != nil {
 		f.Fatal(err)
 	}
@@ -228,15 +232,9 @@ func TestCacheSettingsChange(t *testing.T) {
 	c := NewCache("test")
 	run := func(aim int, cache *Cache) *Result {
 		t.Helper()
-		opts := DefaultOptions()
-		opts.Settings.AimTokens = aim
-		opts.Cache = cache
-		opts.Now = time.Date(2026, 12, 1, 0, 0, 0, 0, time.UTC)
-		res, err := Run(context.Background(), fsys, opts)
-		if err != nil {
-			t.Fatal(err)
-		}
-		return res
+		s := DefaultSettings()
+		s.AimTokens = aim
+		return runSettings(t, fsys, s, cache)
 	}
 	first := run(300, c)
 	for _, aim := range []int{64, 300} {

@@ -237,12 +237,11 @@ var navLines = []string{
 	"index | modules |", "theme auto light dark", "skip to main content",
 }
 
-// TestCorpora builds every real corpus in $KBC_CORPORA with default
-// settings and checks what a user relies on: every passage traces back to
-// its file and lines, no page chrome gets in, two builds give the same
-// bundle id, and verify catches a flipped byte.
-func TestCorpora(t *testing.T) {
-	dir := os.Getenv("KBC_CORPORA")
+// corpora returns $KBC_CORPORA and the corpus folders in it, or skips the
+// test when it is not set or cannot be read.
+func corpora(t *testing.T) (dir string, names []string) {
+	t.Helper()
+	dir = os.Getenv("KBC_CORPORA")
 	if dir == "" {
 		t.Skip("KBC_CORPORA is not set: fetch the corpora with ../shared/corpora/get-corpora.sh DIR and set KBC_CORPORA=DIR")
 	}
@@ -251,11 +250,22 @@ func TestCorpora(t *testing.T) {
 		t.Skipf("KBC_CORPORA=%s: %v", dir, err)
 	}
 	for _, e := range entries {
-		if !e.IsDir() || strings.HasPrefix(e.Name(), ".") {
-			continue
+		if e.IsDir() && !strings.HasPrefix(e.Name(), ".") {
+			names = append(names, e.Name())
 		}
-		src := filepath.Join(dir, e.Name())
-		t.Run(e.Name(), func(t *testing.T) {
+	}
+	return dir, names
+}
+
+// TestCorpora builds every real corpus in $KBC_CORPORA with default
+// settings and checks what a user relies on: every passage traces back to
+// its file and lines, no page chrome gets in, two builds give the same
+// bundle id, and verify catches a flipped byte.
+func TestCorpora(t *testing.T) {
+	dir, names := corpora(t)
+	for _, name := range names {
+		src := filepath.Join(dir, name)
+		t.Run(name, func(t *testing.T) {
 			out := filepath.Join(t.TempDir(), "b")
 			mustBuild(t, src, out)
 			ps := readPassages(t, out)
@@ -335,21 +345,11 @@ func TestCorpora(t *testing.T) {
 // two bundles' passages), all on the edited page, and whose index, updated
 // in place, finds the new sentence.
 func TestCorporaIncremental(t *testing.T) {
-	dir := os.Getenv("KBC_CORPORA")
-	if dir == "" {
-		t.Skip("KBC_CORPORA is not set: fetch the corpora with ../shared/corpora/get-corpora.sh DIR and set KBC_CORPORA=DIR")
-	}
-	entries, err := os.ReadDir(dir)
-	if err != nil {
-		t.Skipf("KBC_CORPORA=%s: %v", dir, err)
-	}
+	dir, names := corpora(t)
 	t.Setenv("SOURCE_DATE_EPOCH", "1796083200")
-	for _, e := range entries {
-		if !e.IsDir() || strings.HasPrefix(e.Name(), ".") {
-			continue
-		}
-		t.Run(e.Name(), func(t *testing.T) {
-			src := copyTree(t, filepath.Join(dir, e.Name()), time.Date(2026, 10, 1, 8, 0, 0, 0, time.UTC))
+	for _, name := range names {
+		t.Run(name, func(t *testing.T) {
+			src := copyTree(t, filepath.Join(dir, name), time.Date(2026, 10, 1, 8, 0, 0, 0, time.UTC))
 			out := filepath.Join(t.TempDir(), "b")
 			mustBuild(t, src, out)
 			before := readPassages(t, out)
