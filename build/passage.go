@@ -30,4 +30,16 @@ type Passage struct {
 	// passage; those copies are not in the bundle, so an answer can cite
 	// every location through this one.
 	AlsoAt []string `json:"also_at,omitempty"`
+
+	// Terms are the defined terms that start inside this passage: the
+	// term of a definition-list entry or an API signature whose element
+	// carries its own id. They are searched like headings, and each can be
+	// cited at its own anchor, finer than the section's.
+	Terms []Term `json:"terms,omitempty"`
+}
+
+// Term is a defined term and the fragment a link to its definition lands on.
+type Term struct {
+	Text   string `json:"text"`
+	Anchor string `json:"anchor,omitempty"`
 }

@@ -75,6 +75,20 @@ func appendPassage(dst []byte, p *build.Passage) ([]byte, bool) {
 		dst = append(dst, `,"also_at":`...)
 		dst = appendJSONStrings(dst, p.AlsoAt)
 	}
+	if len(p.Terms) > 0 {
+		dst = append(dst, `,"terms":[`...)
+		for i, t := range p.Terms {
+			if i > 0 {
+				dst = append(dst, ',')
+			}
+			dst = appendJSONString(append(dst, `{"text":`...), t.Text)
+			if t.Anchor != "" {
+				dst = appendJSONString(append(dst, `,"anchor":`...), t.Anchor)
+			}
+			dst = append(dst, '}')
+		}
+		dst = append(dst, ']')
+	}
 	return append(dst, "}\n"...), true
 }
 
