@@ -32,6 +32,7 @@ func fullPassage() build.Passage {
 		Line: 3, EndLine: 9, Tokens: 42, Hash: strings.Repeat("ab", 32), Split: true,
 		Updated: at, UpdatedSource: "git", Reviewed: &zone, ReviewBy: at.AddDate(0, 3, 0), Expires: &time.Time{},
 		Owner: "fleet-team", Audience: "drivers", AlsoAt: []string{"a.md#x", "b.md"},
+		Terms: []build.Term{{Text: "door <seal>", Anchor: "term-door-seal"}, {Text: "no anchor \u2028"}},
 	}
 }
 
@@ -63,7 +64,7 @@ func TestPassageFields(t *testing.T) {
 	}
 	want := []string{"id", "path", "anchor,omitempty", "title", "heading", "text", "line", "end_line", "tokens", "hash",
 		"split,omitempty", "updated,omitzero", "updated_source,omitempty", "reviewed,omitempty", "review_by,omitzero",
-		"expires,omitempty", "owner,omitempty", "audience,omitempty", "also_at,omitempty"}
+		"expires,omitempty", "owner,omitempty", "audience,omitempty", "also_at,omitempty", "terms,omitempty"}
 	if !reflect.DeepEqual(names, want) {
 		t.Errorf("build.Passage fields %q\nappendPassage knows %q", names, want)
 	}
