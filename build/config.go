@@ -46,7 +46,8 @@ type Config struct {
 		} `toml:"max_age"`
 	} `toml:"freshness"`
 	Gates struct {
-		MaxStale        string `toml:"max_stale"` // "N" documents or "N%"
+		MaxStale        string `toml:"max_stale"`   // "N" documents or "N%"
+		MaxUnknown      string `toml:"max_unknown"` // "N" undated documents or "N%"
 		FailOnDivergent *bool  `toml:"fail_on_divergent"`
 	} `toml:"gates"`
 

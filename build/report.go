@@ -1,6 +1,7 @@
 package build
 
 import (
+	"fmt"
 	"sort"
 	"time"
 
@@ -77,6 +78,9 @@ type StalenessReport struct {
 	Histogram   []AgeBucket    `json:"age_histogram"`
 	Owners      []OwnerGroup   `json:"owners"`
 	Documents   []DocFreshness `json:"documents"` // worst first
+	// Notes warn about the dating of the whole set (see datingNotes):
+	// build prints each once on standard error.
+	Notes []string `json:"notes,omitempty"`
 }
 
 // ageBuckets are the histogram's bars; the bounds follow calendar sense
@@ -175,7 +179,38 @@ func NewStalenessReport(docs []DocFreshness, now time.Time, p fresh.Policy) *Sta
 	for _, o := range owners {
 		r.Owners = append(r.Owners, *byOwner[o])
 	}
+	r.Notes = datingNotes(r.Documents)
 	return r
+}
+
+// datingNotes warns, once for the whole set, when file times were set
+// aside as stamped by a tool, and when more than half of the documents
+// are dated by file time alone: copying or unpacking a tree resets those,
+// so the report then says little.
+func datingNotes(docs []DocFreshness) []string {
+	var aside, byFile int
+	var first *DocFreshness
+	for i := range docs {
+		d := &docs[i]
+		switch {
+		case d.SetAside != "":
+			if aside++; first == nil || d.Path < first.Path {
+				first = d
+			}
+		case d.UpdatedSource == "file time":
+			byFile++
+		}
+	}
+	var notes []string
+	if aside > 0 {
+		notes = append(notes, fmt.Sprintf("%d of %d documents have a file time that a tool stamped, not an author (%s: %s); "+
+			"they are undated (status unknown): date them in front matter or build from a git checkout", aside, len(docs), first.Path, first.SetAside))
+	}
+	if 2*(byFile+aside) > len(docs) && byFile > 0 {
+		notes = append(notes, fmt.Sprintf("%d of %d documents are dated only by their file time, which copying or unpacking resets; "+
+			"date them in front matter or build from a git checkout", byFile+aside, len(docs)))
+	}
+	return notes
 }
 
 // At judges the report's documents again at the instant now, from the

@@ -55,10 +55,12 @@ func RenderStaleness(r *build.StalenessReport) []byte {
 	fmt.Fprintf(&b, "# Staleness report\n\n")
 	fmt.Fprintf(&b, "> **Caution.** %s\n\n", r.Caution)
 	fmt.Fprintf(&b, "As of %s: %d documents: %d expired, %d stale, %d due soon, %d fresh", r.GeneratedAt.UTC().Format(time.RFC3339), c.Total, c.Expired, c.Stale, c.DueSoon, c.Fresh)
-	if c.Unknown > 0 {
-		fmt.Fprintf(&b, ", %d undated", c.Unknown)
+	fmt.Fprintf(&b, ", %d unknown (undated)", c.Unknown)
+	fmt.Fprintf(&b, ".\n\n")
+	for _, n := range r.Notes {
+		fmt.Fprintf(&b, "> **Note.** %s.\n\n", n)
 	}
-	fmt.Fprintf(&b, ".\n\n## Age of documents\n\n| age | documents | |\n|---|---:|---|\n")
+	fmt.Fprintf(&b, "## Age of documents\n\n| age | documents | |\n|---|---:|---|\n")
 	most := 1
 	for _, h := range r.Histogram {
 		most = max(most, h.Documents)
@@ -72,7 +74,7 @@ func RenderStaleness(r *build.StalenessReport) []byte {
 			owner = "(no owner)"
 		}
 		gc := g.Counts
-		fmt.Fprintf(&b, "\n## %s\n\n%d expired, %d stale, %d due soon, %d fresh\n\n", owner, gc.Expired, gc.Stale, gc.DueSoon, gc.Fresh)
+		fmt.Fprintf(&b, "\n## %s\n\n%d expired, %d stale, %d due soon, %d fresh, %d unknown\n\n", owner, gc.Expired, gc.Stale, gc.DueSoon, gc.Fresh, gc.Unknown)
 		fmt.Fprintf(&b, "| status | document | updated | from | review by | |\n|---|---|---|---|---|---|\n")
 		for _, d := range g.Documents {
 			when := ""
@@ -86,7 +88,11 @@ func RenderStaleness(r *build.StalenessReport) []byte {
 			if d.Expires != nil {
 				by += " (expires " + day(*d.Expires) + ")"
 			}
-			fmt.Fprintf(&b, "| %s | %s (%s) | %s | %s | %s | %s |\n", d.Status, mdCell(d.Title), mdCell(d.Path), day(d.Updated), mdCell(d.UpdatedSource), by, when)
+			from := d.UpdatedSource
+			if d.SetAside != "" {
+				from = "set aside: " + d.SetAside
+			}
+			fmt.Fprintf(&b, "| %s | %s (%s) | %s | %s | %s | %s |\n", d.Status, mdCell(d.Title), mdCell(d.Path), day(d.Updated), mdCell(from), by, when)
 		}
 	}
 	return b.Bytes()

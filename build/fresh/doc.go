@@ -15,13 +15,17 @@
 //     (default "updated", then "date");
 //  2. the committer date of the last commit that changed the file, from
 //     [GitDates];
-//  3. the file's modification time.
+//  3. the file's modification time, unless it is a time that tools stamp
+//     rather than authors (see [Sentinel]: the Unix epoch, the earliest ZIP
+//     time, the time npm packs files with, anything before 1990 or after
+//     the build time). Such a time is set aside ([Info.SetAside]) and the
+//     page stays undated: unknown, not decades stale.
 //
 // A front matter value that cannot be read as a date (see [ParseDate]), or
 // that lies more than a day in the future, gives a warning at the line of
-// its key and is skipped: the next source is used. A git or file date in
-// the future (a machine with a wrong clock) is taken as now, with a
-// warning. No zero date is ever taken as a real one.
+// its key and is skipped: the next source is used. A git date in the
+// future (a machine with a wrong clock) is taken as now, with a warning.
+// No zero date is ever taken as a real one.
 //
 // These front matter fields are read as well, each optional:
 //
@@ -41,7 +45,7 @@
 //
 //   - [Expired] when expires is set and now is at or after it;
 //   - [Unknown] when there is no date at all (no front matter date, no git
-//     date, no file time);
+//     date, no file time that is not a sentinel);
 //   - [Stale] when now is at or after the review-by date;
 //   - [DueSoon] when the review-by date, or the expiry date, is at most
 //     [Policy.DueSoon] away;

@@ -170,9 +170,18 @@ func TestEvaluate(t *testing.T) {
 		{name: "git date in the future is taken as now", src: "title: Guide", git: "2030-01-01T00:00:00Z",
 			want:  want{fresh.Fresh, "2026-10-01T00:00:00Z", "git", "2027-10-01T00:00:00Z", 0, "1y", "default"},
 			warns: []string{`guide.mdx: git date 2030-01-01T00:00:00Z is in the future; taken as now`}},
-		{name: "file time in the future is taken as now", src: "title: Guide", mod: "2030-01-01T00:00:00Z",
-			want:  want{fresh.Fresh, "2026-10-01T00:00:00Z", "file time", "2027-10-01T00:00:00Z", 0, "1y", "default"},
-			warns: []string{`guide.mdx: file time 2030-01-01T00:00:00Z is in the future; taken as now`}},
+		// A file time that a tool stamped dates nothing: the page is
+		// undated, counted once per build rather than warned about here.
+		{name: "file time in the future is set aside", src: "title: Guide", mod: "2030-01-01T00:00:00Z",
+			want: want{fresh.Unknown, "", "", "", 0, "1y", "default"}},
+		{name: "npm pack time is set aside", src: "title: Guide", mod: "1985-10-26T08:15:00Z",
+			want: want{fresh.Unknown, "", "", "", 0, "1y", "default"}},
+		{name: "ZIP epoch is set aside", mod: "1980-01-01T00:00:00Z",
+			want: want{fresh.Unknown, "", "", "", 0, "1y", "default"}},
+		{name: "sentinel file time, git date wins", mod: "1970-01-01T00:00:01Z", git: "2026-09-01T00:00:00Z",
+			want: want{fresh.Fresh, "2026-09-01T00:00:00Z", "git", "2027-09-01T00:00:00Z", 30, "1y", "default"}},
+		{name: "1990 file time is real", mod: "1990-01-01T00:00:00Z",
+			want: want{fresh.Stale, "1990-01-01T00:00:00Z", "file time", "1991-01-01T00:00:00Z", 13422, "1y", "default"}},
 		{name: "bad review_every uses the policy", src: "updated: 2026-06-01\nreview_every: 90",
 			want:  want{fresh.Fresh, "2026-06-01T00:00:00Z", "front matter: updated", "2027-06-01T00:00:00Z", 122, "1y", "default"},
 			warns: []string{`guide.mdx:3: front matter review_every: duration "90": missing unit: d (days), w (weeks), m (30-day months) or y (365-day years); ignored`}},
@@ -503,4 +512,30 @@ func BenchmarkEvaluate(b *testing.B) {
 		}
 	}
 	b.ReportMetric(float64(b.N)/b.Elapsed().Seconds(), "docs/s")
+}
+
+// TestSentinel names each time a tool stamps, with where it comes from;
+// sources are beside the constants in sentinel.go.
+func TestSentinel(t *testing.T) {
+	now := time.Date(2026, 10, 1, 0, 0, 0, 0, time.UTC)
+	for _, tt := range []struct {
+		at   string
+		want string
+	}{
+		{"1970-01-01T00:00:00Z", "the Unix epoch"},
+		{"1970-01-01T00:00:01Z", "the Unix epoch"}, // one second past, as some packagers stamp
+		{"1980-01-01T00:00:00Z", "the earliest ZIP time"},
+		{"1980-01-01T00:00:00+01:00", "before 1990"}, // 1979-12-31 in UTC
+		{"1985-10-26T08:15:00Z", "the time npm stamps on packed files"},
+		{"1985-10-26T08:15:01Z", "before 1990"},
+		{"1989-12-31T23:59:59Z", "before 1990"},
+		{"1990-01-01T00:00:00Z", ""},
+		{"2026-10-01T23:00:00Z", ""}, // within a day of the build: time zones
+		{"2026-10-02T00:00:01Z", "after the build time"},
+		{"1601-01-01T00:00:00Z", "before 1990"}, // Windows FILETIME zero
+	} {
+		if got := fresh.Sentinel(mustTime(t, tt.at), now); got != tt.want {
+			t.Errorf("Sentinel(%s) = %q, want %q", tt.at, got, tt.want)
+		}
+	}
 }

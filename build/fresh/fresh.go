@@ -140,6 +140,11 @@ type Info struct {
 	// AgeDays is the number of whole days from the later of Updated and
 	// Reviewed to now; never negative.
 	AgeDays int `json:"age_days"`
+	// SetAside names a file time that was not taken as the updated date
+	// because a tool, not an author, stamped it (see [Sentinel]), e.g.
+	// "file time 1985-10-26T08:15:00Z: the time npm stamps on packed
+	// files". Such a page is undated unless another source dates it.
+	SetAside string `json:"set_aside,omitempty"`
 }
 
 // Front matter fields Evaluate reads besides Policy.DateFields.
@@ -178,7 +183,11 @@ func Evaluate(doc *sources.Document, git map[string]time.Time, now time.Time, p 
 		if t, ok := git[doc.Path]; ok && !t.IsZero() {
 			info.Updated, info.UpdatedSource = e.notFuture(t, "git date"), "git"
 		} else if !doc.ModTime.IsZero() {
-			info.Updated, info.UpdatedSource = e.notFuture(doc.ModTime, "file time"), "file time"
+			if why := Sentinel(doc.ModTime, e.now); why != "" {
+				info.SetAside = "file time " + doc.ModTime.UTC().Format(time.RFC3339) + ": " + why
+			} else {
+				info.Updated, info.UpdatedSource = doc.ModTime.UTC(), "file time"
+			}
 		}
 	}
 	if t, ok := e.date(fieldReviewed, false); ok {
@@ -222,7 +231,9 @@ func Evaluate(doc *sources.Document, git map[string]time.Time, now time.Time, p 
 		}
 	}
 	info.Status = info.StatusAt(e.now, p.DueSoon)
-	if info.Status == Unknown {
+	// A page whose file time was set aside is counted once for the whole
+	// build (see Undated), not warned about page by page.
+	if info.Status == Unknown && info.SetAside == "" {
 		e.warn(0, "no date: no front matter date, git date or file time; freshness unknown")
 	}
 	sources.SortErrors(e.warns)

@@ -45,6 +45,7 @@ type sourceFlags struct {
 	aim, maxTok      int
 	threshold        float64
 	maxStale         string
+	maxUnknown       string
 	failOnDivergent  bool
 }
 
@@ -58,6 +59,7 @@ func addSourceFlags(fs *flag.FlagSet) *sourceFlags {
 	fs.IntVar(&sf.maxTok, "max-tokens", def.Settings.MaxTokens, "largest passage, in tokens")
 	fs.Float64Var(&sf.threshold, "dup-threshold", def.Dedupe.Threshold, "Jaccard similarity at which passages count as copies")
 	fs.StringVar(&sf.maxStale, "max-stale", "", "gate: exit 3 when more than N documents (or N% of them) are stale or expired")
+	fs.StringVar(&sf.maxUnknown, "max-unknown", "", "gate: exit 3 when more than N documents (or N% of them) have no usable date")
 	fs.BoolVar(&sf.failOnDivergent, "fail-on-divergent", false, "gate: exit 3 when copies of a passage differ in numbers, versions, dates or units")
 	return sf
 }
@@ -77,8 +79,8 @@ func (sf *sourceFlags) skipOutput(src, out string) string {
 
 // gates are the quality gates of one run.
 type gates struct {
-	stale     staleLimit
-	divergent bool
+	stale, unknown docLimit
+	divergent      bool
 }
 
 // options builds the pipeline options for src: defaults, then the config
@@ -126,6 +128,13 @@ func (sf *sourceFlags) options(src string) (build.Options, gates, error) {
 	if g.stale, err = parseStaleLimit(limit); err != nil {
 		return opts, g, err
 	}
+	limit = cfg.Gates.MaxUnknown
+	if set["max-unknown"] {
+		limit = sf.maxUnknown
+	}
+	if g.unknown, err = parseUnknownLimit(limit); err != nil {
+		return opts, g, err
+	}
 	g.divergent = sf.failOnDivergent
 	if !set["fail-on-divergent"] && cfg.Gates.FailOnDivergent != nil {
 		g.divergent = *cfg.Gates.FailOnDivergent
@@ -137,7 +146,11 @@ func (sf *sourceFlags) options(src string) (build.Options, gates, error) {
 // failed gate and returns exitGate, or exitOK.
 func (g gates) check(st *build.StalenessReport, divergent int, stderr io.Writer) int {
 	code := exitOK
-	for _, msg := range []string{g.stale.check(st.Counts.StaleOrExpired(), st.Counts.Total), checkDivergent(g.divergent, divergent)} {
+	for _, msg := range []string{
+		g.stale.check(st.Counts.StaleOrExpired(), st.Counts.Total),
+		g.unknown.check(st.Counts.Unknown, st.Counts.Total),
+		checkDivergent(g.divergent, divergent),
+	} {
 		if msg != "" {
 			fmt.Fprintf(stderr, "kbc: %s\n", msg)
 			code = exitGate
@@ -243,6 +256,9 @@ func interrupted() (context.Context, context.CancelFunc) {
 }
 
 func printProblems(res *build.Result, stderr io.Writer) {
+	for _, n := range res.Staleness.Notes {
+		fmt.Fprintf(stderr, "kbc: warning: %s\n", n)
+	}
 	for _, p := range res.Problems {
 		fmt.Fprintln(stderr, p.Error())
 	}

@@ -9,52 +9,65 @@ import (
 // exitGate is the exit code when a quality gate fails.
 const exitGate = 3
 
-// staleLimit is the --max-stale gate: a count of documents, or a share of
-// them when Percent is set.
-type staleLimit struct {
+// docLimit is a gate on a count of documents (--max-stale, --max-unknown):
+// a number of documents, or a share of them when percent is set.
+type docLimit struct {
+	name    string // the flag without dashes, e.g. "max-stale"
+	what    string // what the counted documents are, e.g. "stale or expired"
 	set     bool
 	n       float64
 	percent bool
 }
 
-// parseStaleLimit reads "N" or "N%".
-func parseStaleLimit(s string) (staleLimit, error) {
+// parseLimit reads "N" or "N%" for the gate name; "" is no gate.
+func parseLimit(name, what, s string) (docLimit, error) {
+	l := docLimit{name: name, what: what}
 	if s == "" {
-		return staleLimit{}, nil
+		return l, nil
 	}
 	t := strings.TrimSpace(s)
-	l := staleLimit{set: true}
+	l.set = true
 	if strings.HasSuffix(t, "%") {
 		l.percent = true
 		t = strings.TrimSpace(strings.TrimSuffix(t, "%"))
 	}
 	n, err := strconv.ParseFloat(t, 64)
 	if err != nil || n < 0 || (!l.percent && n != float64(int(n))) || (l.percent && n > 100) {
-		return staleLimit{}, fmt.Errorf("bad --max-stale %q: want a whole number of documents or a percentage such as 10%%", s)
+		return docLimit{}, fmt.Errorf("bad --%s %q: want a whole number of documents or a percentage such as 10%%", name, s)
 	}
 	l.n = n
 	return l, nil
 }
 
-// check returns a one-line failure when stale of total documents crosses
+// parseStaleLimit reads the --max-stale gate.
+func parseStaleLimit(s string) (docLimit, error) {
+	return parseLimit("max-stale", "stale or expired", s)
+}
+
+// parseUnknownLimit reads the --max-unknown gate.
+func parseUnknownLimit(s string) (docLimit, error) {
+	return parseLimit("max-unknown", "undated", s)
+}
+
+// check returns a one-line failure when count of total documents crosses
 // the limit, or "" when the gate holds. Crossing means more than the
 // limit: a limit of 5 allows 5.
-func (l staleLimit) check(stale, total int) string {
+func (l docLimit) check(count, total int) string {
 	if !l.set {
 		return ""
 	}
 	share := 0.0
 	if total > 0 {
-		share = 100 * float64(stale) / float64(total)
+		share = 100 * float64(count) / float64(total)
 	}
 	if l.percent {
 		if share > l.n {
-			return fmt.Sprintf("gate max-stale failed: %d of %d documents stale or expired (%.1f%%), limit %g%% (over by %.1f points)", stale, total, share, l.n, share-l.n)
+			return fmt.Sprintf("gate %s failed: %d of %d documents %s (%.1f%%), limit %g%% (over by %.1f points)", l.name, count, total, l.what, share, l.n, share-l.n)
 		}
 		return ""
 	}
-	if float64(stale) > l.n {
-		return fmt.Sprintf("gate max-stale failed: %d of %d documents stale or expired (%.1f%%), limit %g (over by %d)", stale, total, share, l.n, stale-int(l.n))
+	if float64(count) > l.n {
+		return fmt.Sprintf("gate %s failed: %d of %d documents %s (%.1f%%), limit %g (over by %d)", l.name, count, total, l.what, share, l.n, count-int(l.n))
 	}
 	return ""
 }

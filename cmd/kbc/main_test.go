@@ -90,6 +90,18 @@ func TestScripts(t *testing.T) {
 					ts.Fatalf("%s exited %d, want %d", args[1], got, want)
 				}
 			},
+			// settime TIME FILE... sets the modification time of each FILE
+			// to TIME (RFC 3339), as an archive or a packer would.
+			"settime": func(ts *testscript.TestScript, neg bool, args []string) {
+				if len(args) < 2 {
+					ts.Fatalf("usage: settime RFC3339 FILE...")
+				}
+				at, err := time.Parse(time.RFC3339, args[0])
+				ts.Check(err)
+				for _, f := range args[1:] {
+					ts.Check(os.Chtimes(ts.MkAbs(f), at, at))
+				}
+			},
 			// unreadable FILE removes every permission bit from FILE.
 			"unreadable": func(ts *testscript.TestScript, neg bool, args []string) {
 				ts.Check(os.Chmod(ts.MkAbs(args[0]), 0))

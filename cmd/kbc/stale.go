@@ -13,7 +13,7 @@ import (
 )
 
 func runStale(args []string, stdout, stderr io.Writer) int {
-	fs := newFlags("stale", "stale SRC|OUT [--json] [--max-stale N|N%] [--fail-on-divergent]",
+	fs := newFlags("stale", "stale SRC|OUT [--json] [--max-stale N|N%] [--max-unknown N|N%] [--fail-on-divergent]",
 		"Stale prints the staleness report: every document's freshness, worst first and\n"+
 			"grouped by owner, with counts per status and an age histogram. Given a source\n"+
 			"folder it reads and dates the pages (nothing is written); given a bundle it\n"+
@@ -44,6 +44,9 @@ func runStale(args []string, stdout, stderr io.Writer) int {
 		}
 		st = st.At(now)
 		if g.stale, err = parseStaleLimit(sf.maxStale); err != nil {
+			return badUsage(fs, stderr, "%v", err)
+		}
+		if g.unknown, err = parseUnknownLimit(sf.maxUnknown); err != nil {
 			return badUsage(fs, stderr, "%v", err)
 		}
 		g.divergent = sf.failOnDivergent
