@@ -7,6 +7,7 @@ import (
 	"log"
 	"os"
 	"path/filepath"
+	"time"
 
 	"github.com/kbc-project/kbc/build"
 	"github.com/kbc-project/kbc/bundle"
@@ -74,4 +75,59 @@ func ExampleVerify() {
 	for _, p := range problems {
 		fmt.Printf("%s: %s\n", p.File, p.Problem)
 	}
+}
+
+// This example is the serving side of an assistant: open a bundle once,
+// answer questions with Query (freshness status, audience rule) and
+// assemble a cited context within a token budget for the model. Query and
+// Context are safe for concurrent use; after a pull swaps the folder,
+// open it again.
+func Example_serving() {
+	dir, err := os.MkdirTemp("", "kbc-example-")
+	if err != nil {
+		log.Fatal(err)
+	}
+	defer os.RemoveAll(dir)
+	out := filepath.Join(dir, "bundle")
+
+	reviewed := time.Date(2026, 3, 2, 0, 0, 0, 0, time.UTC)
+	seals := passage("seals-1", "fleet/reefer-door-seals.md", 12, []string{"Reefer door seals", "Weekly check"},
+		"Inspect each reefer door seal every week. Replace a seal that fails the paper test.")
+	seals.Anchor, seals.Updated, seals.ReviewBy = "weekly-check", reviewed, reviewed.AddDate(0, 6, 0)
+	pay := passage("pay-1", "office/overtime.md", 4, []string{"Overtime"},
+		"Overtime on reefer night runs is paid at the night rate.")
+	pay.Audience = "payroll"
+	if _, err := bundle.Write(out, &bundle.Input{Passages: []build.Passage{seals, pay}, Tool: "kbc example"}); err != nil {
+		log.Fatal(err)
+	}
+
+	b, err := bundle.Open(out)
+	if err != nil {
+		log.Fatal(err)
+	}
+	defer b.Close()
+	now := time.Date(2026, 12, 1, 0, 0, 0, 0, time.UTC)
+
+	// A driver's question: the payroll passage is not theirs to see, and
+	// the seal check is past its review date.
+	hits, err := b.Query("reefer seal check", bundle.SearchOptions{K: 5, Audiences: []string{"drivers"}, Now: now})
+	if err != nil {
+		log.Fatal(err)
+	}
+	for _, h := range hits {
+		fmt.Printf("%s#%s %s\n", h.Path, h.Anchor, h.Status)
+	}
+
+	c, err := b.Context("reefer seal check", bundle.ContextOptions{
+		SearchOptions: bundle.SearchOptions{Audiences: []string{"drivers"}, Now: now}, Budget: 200})
+	if err != nil {
+		log.Fatal(err)
+	}
+	fmt.Print(c.Markdown())
+	// Output:
+	// fleet/reefer-door-seals.md#weekly-check stale
+	// [1] fleet/reefer-door-seals.md#weekly-check, lines 12-12, updated 2026-03-02
+	// > warning: stale: review was due 2026-09-02
+	//
+	// Inspect each reefer door seal every week. Replace a seal that fails the paper test.
 }

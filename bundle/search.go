@@ -19,6 +19,7 @@ import (
 	index "github.com/blevesearch/bleve_index_api"
 
 	"github.com/kbc-project/kbc/build"
+	"github.com/kbc-project/kbc/build/fresh"
 )
 
 // Bundle is a bundle opened for searching. Its methods are safe for
@@ -32,6 +33,18 @@ type Bundle struct {
 	passages *os.File
 	lines    map[string]span // passage id -> its line in passages.jsonl
 	scratch  sync.Pool       // *[]float64, one score per passage, all zero
+
+	// The divergent copies of reports/duplicates.json, read on first use
+	// by Query (see conflicts).
+	conflictsOnce sync.Once
+	conflictMap   conflictSet
+	canonical     map[string]bool // ids of the canonical sides of divergent pairs
+	conflictErr   error
+
+	// The tokenizer Context counts with, made on first use.
+	tokOnce sync.Once
+	tok     *build.Tokenizer
+	tokErr  error
 }
 
 // span is a line of passages.jsonl without its newline.
@@ -40,10 +53,18 @@ type span struct {
 	n   int
 }
 
-// Hit is one search result: the passage and its score.
+// next returns the offset of the line after s.
+func (s span) next() int64 { return s.off + int64(s.n) + 1 }
+
+// Hit is one search result: the passage and its score. Query also sets
+// its freshness status at query time and the copies that disagree with it.
 type Hit struct {
 	build.Passage
-	Score float64 `json:"score"`
+	Score    float64      `json:"score"`
+	Status   fresh.Status `json:"status,omitempty"`
+	Conflict []Conflict   `json:"conflict,omitempty"`
+
+	canonical bool // the canonical side of a divergent pair (Query)
 }
 
 // Open opens the bundle in dir for searching: it reads the manifest and the

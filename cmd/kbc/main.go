@@ -5,7 +5,8 @@
 //
 //	kbc build SRC -o OUT [--strict] [--include GLOB] [--exclude GLOB]
 //	kbc watch SRC -o OUT [--debounce 150ms] [--serve 127.0.0.1:PORT]
-//	kbc query OUT "question" [-k 10] [--json]
+//	kbc query OUT "question" [-k 10] [--json] [--audience NAME]... [--exclude-stale]
+//	kbc context OUT "question" --budget TOKENS [--json] [--lambda 0.7]
 //	kbc stale SRC|OUT [--json] [--max-stale N|N%] [--fail-on-divergent]
 //	kbc diff A B [--json]
 //	kbc verify OUT [--json]
@@ -62,6 +63,7 @@ func commands() []command {
 		{"build", "compile a docs folder into a bundle", runBuild},
 		{"watch", "rebuild a bundle whenever a page changes", runWatch},
 		{"query", "search a bundle", runQuery},
+		{"context", "assemble a cited, budgeted context for a question", runContext},
 		{"stale", "report stale pages of a docs folder or bundle", runStale},
 		{"diff", "list passages added, changed and removed between two bundles", runDiff},
 		{"verify", "re-hash a bundle's files against its manifest", runVerify},

@@ -2,20 +2,61 @@ package main
 
 import (
 	"encoding/json"
+	"flag"
 	"fmt"
 	"io"
+	"os"
 	"strings"
+	"time"
 
 	"github.com/kbc-project/kbc/bundle"
 )
 
+// searchFlags are the flags of every command that searches a bundle
+// (query, context): who is asking and what they will not be given.
+type searchFlags struct {
+	audiences                    multiFlag
+	excludeStale, excludeExpired bool
+}
+
+func addSearchFlags(fs *flag.FlagSet) *searchFlags {
+	sf := &searchFlags{}
+	fs.Var(&sf.audiences, "audience", "an audience the caller may read (repeatable); passages labelled for other audiences are left out")
+	fs.BoolVar(&sf.excludeStale, "exclude-stale", false, "leave out stale and expired passages")
+	fs.BoolVar(&sf.excludeExpired, "exclude-expired", false, "leave out expired passages")
+	return sf
+}
+
+// options returns the search options, judged at now.
+func (sf *searchFlags) options(k int, now time.Time) bundle.SearchOptions {
+	return bundle.SearchOptions{K: k, Audiences: sf.audiences, ExcludeStale: sf.excludeStale, ExcludeExpired: sf.excludeExpired, Now: now}
+}
+
+// openForSearch opens the bundle in dir and reads the instant freshness is
+// judged at (SOURCE_DATE_EPOCH, else the clock).
+func openForSearch(fs *flag.FlagSet, dir string, stderr io.Writer) (*bundle.Bundle, time.Time, int) {
+	now, err := buildTime(os.Getenv("SOURCE_DATE_EPOCH"), time.Now)
+	if err != nil {
+		return nil, now, badUsage(fs, stderr, "%v", err)
+	}
+	b, err := bundle.Open(dir)
+	if err != nil {
+		fmt.Fprintf(stderr, "kbc %s: %v\n", fs.Name(), err)
+		return nil, now, exitFailure
+	}
+	return b, now, -1
+}
+
 func runQuery(args []string, stdout, stderr io.Writer) int {
-	fs := newFlags("query", "query OUT \"text\" [-k 10] [--json]",
+	fs := newFlags("query", "query OUT \"text\" [-k 10] [--json] [--audience NAME]... [--exclude-stale] [--exclude-expired]",
 		"Query searches the bundle in OUT with BM25 over passage text, title and heading\n"+
-			"trail, and prints the best passages.",
+			"trail, and prints the best passages, each with its freshness status now and\n"+
+			"the copies that disagree with it. Passages labelled for an audience are shown\n"+
+			"only with --audience naming it.",
 		"kbc query out \"how often are reefer door seals checked\" -k 3", stderr)
 	k := fs.Int("k", 10, "number of passages to return")
 	asJSON := fs.Bool("json", false, "print the results as a JSON array")
+	sf := addSearchFlags(fs)
 	pos, code := parseArgs(fs, args, stdout)
 	if code >= 0 {
 		return code
@@ -26,13 +67,12 @@ func runQuery(args []string, stdout, stderr io.Writer) int {
 	if *k <= 0 {
 		return badUsage(fs, stderr, "-k must be at least 1")
 	}
-	b, err := bundle.Open(pos[0])
-	if err != nil {
-		fmt.Fprintf(stderr, "kbc query: %v\n", err)
-		return exitFailure
+	b, now, code := openForSearch(fs, pos[0], stderr)
+	if code >= 0 {
+		return code
 	}
 	defer b.Close()
-	hits, err := b.Search(strings.Join(pos[1:], " "), *k)
+	hits, err := b.Query(strings.Join(pos[1:], " "), sf.options(*k, now))
 	if err != nil {
 		fmt.Fprintf(stderr, "kbc query: %v\n", err)
 		return exitFailure
@@ -58,7 +98,7 @@ func runQuery(args []string, stdout, stderr io.Writer) int {
 		if h.Anchor != "" {
 			loc += "#" + h.Anchor
 		}
-		fmt.Fprintf(stdout, "%2d. %6.3f  %s  (lines %d-%d)\n", i+1, h.Score, loc, h.Line, h.EndLine)
+		fmt.Fprintf(stdout, "%2d. %6.3f  %s  (lines %d-%d)  %s\n", i+1, h.Score, loc, h.Line, h.EndLine, h.Status)
 		if len(h.Heading) > 0 {
 			fmt.Fprintf(stdout, "    %s\n", strings.Join(h.Heading, " > "))
 		}
@@ -67,6 +107,13 @@ func runQuery(args []string, stdout, stderr io.Writer) int {
 		}
 		if len(h.AlsoAt) > 0 {
 			fmt.Fprintf(stdout, "    also at: %s\n", strings.Join(h.AlsoAt, ", "))
+		}
+		for _, c := range h.Conflict {
+			var parts []string
+			for _, d := range c.Differences {
+				parts = append(parts, fmt.Sprintf("%q there, %q here", d.There, d.Here))
+			}
+			fmt.Fprintf(stdout, "    disputed by %s: %s\n", c.With, strings.Join(parts, "; "))
 		}
 	}
 	return exitOK

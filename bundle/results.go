@@ -1,0 +1,208 @@
+package bundle
+
+import (
+	"cmp"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"io/fs"
+	"os"
+	"path/filepath"
+	"slices"
+	"strings"
+	"time"
+
+	"github.com/kbc-project/kbc/build"
+	"github.com/kbc-project/kbc/build/fresh"
+)
+
+// SearchOptions say what a caller may see and wants. The zero value asks
+// for ten public passages of any freshness, judged at the current time.
+type SearchOptions struct {
+	// K is the number of results wanted; 0 means 10.
+	K int
+	// Audiences are the audience labels the caller may read. A passage
+	// whose page has an audience (front matter "audience") is returned
+	// only to a caller that names it; passages without one are public.
+	// A page may name several audiences ("drivers, dispatch"): naming any
+	// of them is enough.
+	Audiences []string
+	// ExcludeStale drops stale and expired passages; ExcludeExpired drops
+	// expired ones only.
+	ExcludeStale, ExcludeExpired bool
+	// Now is the instant freshness is judged at; zero means the clock.
+	Now time.Time
+}
+
+// Conflict names another copy of a passage that disagrees with it on a
+// fact (a number, version, date or unit), and the words that differ.
+type Conflict struct {
+	With        string       `json:"with"` // path#anchor of the other copy
+	Differences []Difference `json:"differences"`
+}
+
+// Difference is one run of differing words: Here in this passage, There in
+// the other copy.
+type Difference struct {
+	Here  string `json:"here"`
+	There string `json:"there"`
+}
+
+// defaultK is the number of results when SearchOptions.K is 0.
+const defaultK = 10
+
+// Query searches the bundle as Search does and returns what a caller may
+// be shown, each hit with its freshness status at opts.Now and the copies
+// that disagree with it:
+//
+//   - passages whose audience the caller did not name are left out, and so
+//     are stale or expired ones when opts asks;
+//   - among hits of equal score the canonical copy comes first (a passage
+//     other copies were folded into, or the canonical side of a divergent
+//     pair), then the fresher one (by status, then by updated date), then
+//     passages.jsonl order. Scores are never changed: a less relevant
+//     passage is never lifted over a more relevant one.
+//
+// Query is safe for concurrent use.
+func (b *Bundle) Query(query string, opts SearchOptions) ([]Hit, error) {
+	k := cmp.Or(opts.K, defaultK)
+	if k < 0 {
+		return nil, fmt.Errorf("search: k %d is negative", k)
+	}
+	now := opts.Now
+	if now.IsZero() {
+		now = time.Now()
+	}
+	conflicts, err := b.conflicts()
+	if err != nil {
+		return nil, err
+	}
+	dueSoon := b.dueSoon()
+	// Fetch more than k: filtered passages leave gaps, and a tie at the
+	// k-th score must be seen whole to put its canonical copy first.
+	for fetch := max(2*k, k+10); ; fetch *= 4 {
+		hits, err := b.Search(query, fetch)
+		if err != nil {
+			return nil, err
+		}
+		var kept []Hit
+		for _, h := range hits {
+			h.Status = fresh.Info{ReviewBy: h.ReviewBy, Expires: h.Expires}.StatusAt(now, dueSoon)
+			if !visible(h.Audience, opts.Audiences) ||
+				(opts.ExcludeStale && (h.Status == fresh.Stale || h.Status == fresh.Expired)) ||
+				(opts.ExcludeExpired && h.Status == fresh.Expired) {
+				continue
+			}
+			h.Conflict = conflicts[h.ID]
+			h.canonical = b.canonical[h.ID]
+			kept = append(kept, h)
+		}
+		exhausted := len(hits) < fetch
+		if !exhausted && (len(kept) < k || kept[k-1].Score == hits[len(hits)-1].Score) {
+			continue // not enough yet, or the tie at the k-th place may go on
+		}
+		slices.SortStableFunc(kept, func(x, y Hit) int {
+			return cmp.Or(cmp.Compare(y.Score, x.Score),
+				cmp.Compare(canonicalRank(&x), canonicalRank(&y)),
+				cmp.Compare(statusRank(x.Status), statusRank(y.Status)),
+				y.Updated.Compare(x.Updated))
+		})
+		return kept[:min(k, len(kept))], nil
+	}
+}
+
+// visible reports whether a passage with this audience label may be shown
+// to a caller cleared for audiences.
+func visible(label string, audiences []string) bool {
+	if label == "" {
+		return true
+	}
+	for _, a := range strings.Split(label, ",") {
+		if a = strings.TrimSpace(a); a != "" && slices.Contains(audiences, a) {
+			return true
+		}
+	}
+	return false
+}
+
+// canonicalRank is 0 for a passage that other copies were folded into or
+// that is the canonical side of a divergent pair, 1 otherwise.
+func canonicalRank(h *Hit) int {
+	if len(h.AlsoAt) > 0 || h.canonical {
+		return 0
+	}
+	return 1
+}
+
+// statusRank orders statuses from freshest to worst.
+func statusRank(s fresh.Status) int {
+	switch s {
+	case fresh.Fresh:
+		return 0
+	case fresh.DueSoon:
+		return 1
+	case fresh.Unknown:
+		return 2
+	case fresh.Stale:
+		return 3
+	}
+	return 4 // expired
+}
+
+// dueSoon returns the due-soon window the bundle was built with.
+func (b *Bundle) dueSoon() fresh.Duration {
+	var s struct {
+		Freshness fresh.Policy `json:"freshness"`
+	}
+	if len(b.manifest.Settings) > 0 && json.Unmarshal(b.manifest.Settings, &s) == nil && s.Freshness.DueSoon.Days > 0 {
+		return s.Freshness.DueSoon
+	}
+	return fresh.DefaultPolicy().DueSoon
+}
+
+// conflictSet is what Query adds to hits from the duplicate report.
+type conflictSet map[string][]Conflict
+
+// conflicts reads the divergent copies of reports/duplicates.json once
+// and indexes them by passage id; a bundle without the report has none.
+func (b *Bundle) conflicts() (conflictSet, error) {
+	b.conflictsOnce.Do(func() {
+		b.conflictMap, b.canonical, b.conflictErr = readConflicts(b.dir)
+	})
+	return b.conflictMap, b.conflictErr
+}
+
+// readConflicts reads the divergent pairs of the duplicate report in dir:
+// each passage of a pair gets a Conflict naming the other side, and the
+// canonical side is marked.
+func readConflicts(dir string) (conflictSet, map[string]bool, error) {
+	name := filepath.Join(dir, filepath.FromSlash(DuplicatesJSON))
+	data, err := os.ReadFile(name)
+	if errors.Is(err, fs.ErrNotExist) {
+		return nil, nil, nil
+	}
+	if err != nil {
+		return nil, nil, err
+	}
+	var rep struct {
+		Divergent []build.DivergentCopy `json:"divergent"`
+	}
+	if err := json.Unmarshal(data, &rep); err != nil {
+		return nil, nil, fmt.Errorf("%s: %w", name, err)
+	}
+	set := conflictSet{}
+	canonical := map[string]bool{}
+	for _, d := range rep.Divergent {
+		var here, there []Difference
+		for _, x := range d.Differences {
+			if x.Fact {
+				here = append(here, Difference{Here: x.A, There: x.B})
+				there = append(there, Difference{Here: x.B, There: x.A})
+			}
+		}
+		set[d.Canonical.ID] = append(set[d.Canonical.ID], Conflict{With: d.Copy.Ref(), Differences: here})
+		set[d.Copy.ID] = append(set[d.Copy.ID], Conflict{With: d.Canonical.Ref(), Differences: there})
+		canonical[d.Canonical.ID] = true
+	}
+	return set, canonical, nil
+}
