@@ -41,7 +41,7 @@ type Cache struct {
 	state bool
 	// memos keep the duplicate search's per-text hashing between builds:
 	// in memory in watch mode, and saved with the cache.
-	memos [2]*dedupe.Memo // real text, masked text
+	memos [3]*dedupe.Memo // real text, masked text, masked blocks
 }
 
 // memo returns the hashing memo for the real (0) or masked (1) texts.

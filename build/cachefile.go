@@ -56,7 +56,7 @@ type cacheRecord struct {
 // cacheState is the record of the state file.
 type cacheState struct {
 	Dedupe *DedupeMemo
-	Memos  [2][]byte // dedupe.Memo.MarshalBinary, real and masked texts; nil: none
+	Memos  [3][]byte // dedupe.Memo.MarshalBinary, real and masked texts, masked blocks; nil: none
 	Git    *fresh.GitHistory
 }
 

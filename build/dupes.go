@@ -4,6 +4,7 @@ import (
 	"crypto/sha256"
 	"encoding/hex"
 	"fmt"
+	"slices"
 	"sort"
 	"strings"
 
@@ -237,19 +238,33 @@ func findCopies(ps []Passage, docs map[string]*sources.Document, opts dedupe.Opt
 		Passages:         len(ps), Candidates: res.Candidates + resM.Candidates,
 		Divergent: []DivergentCopy{}, Clusters: []DuplicateCluster{},
 	}
-	// divergent records a pair whose copies state different facts.
-	seen := map[[2]int]bool{}
-	divergent := func(keep, m int, j float64) {
-		if seen[[2]int{keep, m}] || ps[keep].Text == ps[m].Text {
+	// divergent records a pair of passages whose copies state different
+	// facts, once: the words compared are the passages' texts or, for a
+	// pair found block by block, the two blocks.
+	// A pair found again through other blocks adds the differences it
+	// did not have.
+	seen := map[[2]int]int{} // pair -> 1 + its index in rep.Divergent
+	divergent := func(keep, m int, j float64, tk, tm string) {
+		if tk == tm {
 			return
 		}
-		seen[[2]int{keep, m}] = true
-		diffs, _ := dedupe.Divergent(ps[keep].Text, ps[m].Text)
-		if len(conflicts(diffs)) > 0 {
-			rep.Divergent = append(rep.Divergent, DivergentCopy{
-				Canonical: locate(&ps[keep]), Copy: locate(&ps[m]), Jaccard: j, Differences: diffs,
-			})
+		diffs, _ := dedupe.Divergent(tk, tm)
+		if len(conflicts(diffs)) == 0 {
+			return
 		}
+		if at := seen[[2]int{keep, m}]; at > 0 {
+			d := &rep.Divergent[at-1]
+			for _, x := range diffs {
+				if !slices.Contains(d.Differences, x) {
+					d.Differences = append(d.Differences, x)
+				}
+			}
+			return
+		}
+		rep.Divergent = append(rep.Divergent, DivergentCopy{
+			Canonical: locate(&ps[keep]), Copy: locate(&ps[m]), Jaccard: j, Differences: diffs,
+		})
+		seen[[2]int{keep, m}] = len(rep.Divergent)
 	}
 	drop := make([]bool, len(ps))
 	cluster := make([]int, len(ps)) // raw cluster number + 1, 0 for none
@@ -266,7 +281,7 @@ func findCopies(ps []Passage, docs map[string]*sources.Document, opts dedupe.Opt
 			j := 1.0
 			if ps[keep].Text != ps[m].Text {
 				j = dedupe.Similarity(ps[keep].Text, ps[m].Text, opts.Shingle)
-				divergent(keep, m, j)
+				divergent(keep, m, j, ps[keep].Text, ps[m].Text)
 			}
 			dc.Copies = append(dc.Copies, Copy{Location: locate(&ps[m]), Jaccard: j})
 			also = append(also, locate(&ps[m]).Ref())
@@ -288,9 +303,24 @@ func findCopies(ps []Passage, docs map[string]*sources.Document, opts dedupe.Opt
 			}
 			keep, _ := canonical([]int{a, b}, ps, docs)
 			other := a + b - keep
-			divergent(keep, other, j)
+			divergent(keep, other, j, ps[keep].Text, ps[other].Text)
 		}
 	}
+	// The same search block by block: copies packed with other text.
+	n, err := blockDivergence(ps, opts, cache.memo(2), func(a, b int, ta, tb string, j float64) {
+		if cluster[a] != 0 && cluster[a] == cluster[b] {
+			return // folded copies, compared whole above
+		}
+		if keep, _ := canonical([]int{a, b}, ps, docs); keep == a {
+			divergent(a, b, j, ta, tb)
+		} else {
+			divergent(b, a, j, tb, ta)
+		}
+	})
+	if err != nil {
+		return nil, nil, err
+	}
+	rep.Candidates += n
 	sort.SliceStable(rep.Divergent, func(i, j int) bool {
 		a, b := rep.Divergent[i], rep.Divergent[j]
 		if a.Canonical.Path != b.Canonical.Path {
