@@ -256,3 +256,24 @@ func TestWriteRunRoundTrip(t *testing.T) {
 		t.Error("a docid with a space was written")
 	}
 }
+
+func TestReadQueries(t *testing.T) {
+	qs, err := ReadQueries(strings.NewReader("# questions\nq1\thow often are door seals checked\r\n\nq2\t  keys at the north depot \n"), "f")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if fmt.Sprint(qs) != "[{q1 how often are door seals checked} {q2 keys at the north depot}]" {
+		t.Errorf("got %v", qs)
+	}
+	for _, tc := range []struct{ text, want string }{
+		{"q1 no tab here\n", "f:1: want qid<TAB>question, found no tab"},
+		{"\tno id\n", `f:1: query id "" is empty or has white space`},
+		{"q 1\ttext\n", `f:1: query id "q 1" is empty or has white space`},
+		{"q1\t \n", "f:1: query q1 has no text"},
+		{"q1\ta\nq1\tb\n", "f:2: query q1 is given twice (first at line 1)"},
+	} {
+		if _, err := ReadQueries(strings.NewReader(tc.text), "f"); err == nil || err.Error() != tc.want {
+			t.Errorf("%q: err = %v, want %s", tc.text, err, tc.want)
+		}
+	}
+}

@@ -95,3 +95,25 @@ func checkErrorList(t *testing.T, err error) {
 		last = e.Line
 	}
 }
+
+// FuzzReadQueries checks that any input gives questions with usable ids
+// and text, or positioned errors.
+func FuzzReadQueries(f *testing.F) {
+	f.Add("q1\thow often are door seals checked\n# c\n\nq2\tkeys\n")
+	f.Add("q1 no tab\n")
+	f.Add("q1\ta\nq1\tb\n")
+	f.Fuzz(func(t *testing.T, in string) {
+		qs, err := ReadQueries(strings.NewReader(in), "f")
+		if err != nil {
+			checkErrorList(t, err)
+			return
+		}
+		seen := map[string]bool{}
+		for _, q := range qs {
+			if q.ID == "" || strings.ContainsFunc(q.ID, isSpace) || q.ID[0] == '#' || seen[q.ID] || strings.TrimSpace(q.Text) != q.Text || q.Text == "" {
+				t.Fatalf("bad query %q", q)
+			}
+			seen[q.ID] = true
+		}
+	})
+}

@@ -200,3 +200,24 @@ func valuesOf(m map[string]int) []int {
 	}
 	return v
 }
+
+// Drop is a measure whose mean fell from Old to New.
+type Drop struct {
+	Measure  string
+	Old, New float64
+}
+
+// Drops compares the means of a baseline (old) and a new evaluation (cur)
+// on the named measures, and returns, in the order of names, those that
+// fell by more than tolerance. A measure missing from either is skipped.
+func Drops(old, cur Scores, names []string, tolerance float64) []Drop {
+	var out []Drop
+	for _, m := range names {
+		o, ok1 := old[m]
+		c, ok2 := cur[m]
+		if ok1 && ok2 && o-c > tolerance {
+			out = append(out, Drop{m, o, c})
+		}
+	}
+	return out
+}

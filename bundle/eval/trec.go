@@ -107,32 +107,43 @@ func ReadRun(r io.Reader, name string) (Run, error) {
 // a comment; parse returns what is wrong with the line, or "".
 func readLines(r io.Reader, name string, parse func(no int, fields []string) string) error {
 	var errs ErrorList
+	err := scanLines(r, name, func(no int, line string) {
+		f := strings.FieldsFunc(line, isSpace)
+		if len(f) == 0 || strings.HasPrefix(f[0], "#") || len(errs) > maxErrors {
+			return
+		}
+		if msg := parse(no, f); msg != "" {
+			if len(errs) == maxErrors {
+				msg = "too many errors"
+			}
+			errs = append(errs, &Error{name, no, msg})
+		}
+	})
+	if err != nil && len(errs) <= maxErrors {
+		errs = append(errs, err.(*Error))
+	}
+	if len(errs) > 0 {
+		return errs
+	}
+	return nil
+}
+
+// scanLines calls fn with each line of r and its number from 1. A read
+// error, or a line longer than maxLine, is returned as an *Error.
+func scanLines(r io.Reader, name string, fn func(no int, line string)) error {
 	sc := bufio.NewScanner(r)
 	sc.Buffer(make([]byte, 0, 64<<10), maxLine)
 	no := 0
 	for sc.Scan() {
 		no++
-		f := strings.FieldsFunc(sc.Text(), isSpace)
-		if len(f) == 0 || strings.HasPrefix(f[0], "#") {
-			continue
-		}
-		if msg := parse(no, f); msg != "" {
-			errs = append(errs, &Error{name, no, msg})
-			if len(errs) == maxErrors {
-				errs = append(errs, &Error{name, no, "too many errors"})
-				return errs
-			}
-		}
+		fn(no, sc.Text())
 	}
 	if err := sc.Err(); err != nil {
 		msg := err.Error()
 		if errors.Is(err, bufio.ErrTooLong) {
 			msg = fmt.Sprintf("line longer than %d bytes", maxLine)
 		}
-		errs = append(errs, &Error{name, no + 1, msg})
-	}
-	if len(errs) > 0 {
-		return errs
+		return &Error{name, no + 1, msg}
 	}
 	return nil
 }
