@@ -39,9 +39,10 @@
 //	             log2(rank+1), over the same for the ideal order of the judged
 //	             grades (m_ndcg_cut.c; Järvelin & Kekäläinen 2002)
 //
-// The ndcg discount is that of trec_eval 9.0.8 and later (m_ndcg_cut.c
-// divides by log2(i+2) for the document at 0-based position i); older
-// releases left the first two ranks undiscounted, so their ndcg_cut values
+// The ndcg discount is that of trec_eval's current source (m_ndcg_cut.c at
+// commit dc0c991c, from the 10.0 series, divides by log2(i+2) for the
+// document at 0-based position i); the 9.0 source (commit c0b2cc77) left
+// the first two ranks undiscounted, so an old build's ndcg_cut values
 // differ when a relevant document sits at rank 2 or later.
 //
 // # Which queries count
