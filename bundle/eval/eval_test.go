@@ -277,3 +277,30 @@ func TestReadQueries(t *testing.T) {
 		}
 	}
 }
+
+// TestTrecEvalLibraryCases repeats small cases whose values pytrec_eval's
+// tests (cvangysel/pytrec_eval, tests/pytrec_eval_tests.py, test_ndcg and
+// test_ndcg_cut) assert from trec_eval's own code: one relevant document of
+// three judged. They pin the discount: at rank 3, 1/log2(4) = 0.5; at rank
+// 2, 1/log2(3) = 0.6309 (trec_eval's 9.0 source gave 1 there).
+func TestTrecEvalLibraryCases(t *testing.T) {
+	judged := map[string]int{"d1": 0, "d2": 1, "d3": 0}
+	for _, tc := range []struct {
+		run  []Result
+		want float64
+	}{
+		{[]Result{{"d1", 1.0}, {"d2", 0.0}, {"d3", 1.5}}, 0.5},                // d2 at rank 3
+		{[]Result{{"d1", 1.0}, {"d2", 2.0}, {"d3", 1.5}}, 1.0},                // rank 1
+		{[]Result{{"d1", 4.0}, {"d2", 2.0}, {"d3", 1.5}}, 0.6309297535714575}, // rank 2
+	} {
+		s := Score(judged, tc.run)
+		if math.Abs(s["ndcg_cut_5"]-tc.want) > 1e-12 {
+			t.Errorf("%v: ndcg_cut_5 = %v, want %v", tc.run, s["ndcg_cut_5"], tc.want)
+		}
+	}
+	// test_ndcg_cut: with d2 at rank 3, the cut at 1 and 2 sees no gain.
+	s := Score(judged, []Result{{"d1", 1.0}, {"d2", 0.0}, {"d3", 1.5}})
+	if s["P_1"] != 0 || s["recall_5"] != 1 || s["recip_rank"] != 1.0/3 {
+		t.Errorf("d2 at rank 3: %v", s)
+	}
+}
