@@ -160,7 +160,7 @@ func Share(n, of int) float64 {
 }
 
 // Findability asks b for each section by its own heading trail (the
-// trail's headings joined by spaces; the page title when it has none), and
+// page title, then the trail's headings, joined by spaces; see selfQuery), and
 // for each defined term (build.Passage.Terms) by the term, and records the
 // rank at which the section holding it comes back, at opt.Level (a term's
 // target is the section of the passage it starts in). A section that its
@@ -188,10 +188,7 @@ func (b *Bundle) Findability(opt EvalOptions) (*Findability, error) {
 	}
 	for i := range ps {
 		p := &ps[i]
-		trail := strings.Join(p.Heading, " ")
-		if trail == "" {
-			trail = p.Title
-		}
+		trail := selfQuery(p)
 		doc := DocID(p, level)
 		add(ask{"section", doc, trail})
 		for _, t := range p.Terms {
@@ -241,6 +238,18 @@ func (b *Bundle) Findability(opt EvalOptions) (*Findability, error) {
 			cmp.Compare(x.Query, y.Query))
 	})
 	return f, nil
+}
+
+// selfQuery is the words a section is asked by: its heading trail, led by
+// the page title unless the trail already starts with it (a page whose
+// title comes from front matter has trails such as "Usage" alone, which
+// say nothing of the page).
+func selfQuery(p *build.Passage) string {
+	words := p.Heading
+	if p.Title != "" && (len(words) == 0 || words[0] != p.Title) {
+		words = append([]string{p.Title}, words...)
+	}
+	return strings.Join(words, " ")
 }
 
 // missOrder sorts not found (rank 0) first, then the lowest ranks.
