@@ -150,7 +150,10 @@ func TestEvaluateAveraging(t *testing.T) {
 	}
 	// Averaged: q1, q2 (both files) and q5 (judged, grade 0 only: scores 0
 	// and counts, as in trec_eval.c, which evaluates every judged query
-	// with results). q3 has no judgements, q4 no results: both skipped.
+	// with results; its CHANGELOG, 4/5/06, says queries with no relevant
+	// docs were ignored only by very old versions). q3 has no judgements,
+	// q4 no results: both skipped (the default is the intersection of run
+	// and qrels: trec_eval.c's help text, and usnistgov/trec_eval issue 18).
 	if got := strings.Join(rep.Unjudged, ","); got != "q3" {
 		t.Errorf("Unjudged = %s, want q3", got)
 	}
@@ -199,6 +202,10 @@ func TestScoreEmpty(t *testing.T) {
 	}
 }
 
+// TestReadErrors pins the text of each error. A docid given twice for one
+// query is an error in both files because trec_eval stops on it too
+// (form_res_rels.c: "duplicate docs"); the field counts follow
+// get_qrels.c (exactly four) and get_trec_results.c (six, more ignored).
 func TestReadErrors(t *testing.T) {
 	for _, tc := range []struct {
 		name, text, want string
