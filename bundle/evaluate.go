@@ -65,7 +65,9 @@ func (o EvalOptions) depth() int {
 // the documents the hits stand for at Level: a document several passages
 // stand for appears once, at its best passage's rank and score. Every query
 // has an entry, empty when nothing matched. Queries run on several
-// goroutines.
+// goroutines. Scoring ranks the results as trec_eval does (eval.Rank), so
+// two documents with exactly equal scores are taken in descending docid
+// order, whatever order Search gave them in.
 func (b *Bundle) RunQueries(qs []eval.Query, opt EvalOptions) (eval.Run, error) {
 	level, err := ParseLevel(string(opt.Level))
 	if err != nil {
