@@ -7,6 +7,7 @@ import (
 	"path/filepath"
 	"slices"
 	"strings"
+	"sync/atomic"
 
 	"github.com/kbc-project/kbc/build"
 	"github.com/kbc-project/kbc/bundle/eval"
@@ -52,6 +53,34 @@ const DefaultEvalDepth = 100
 type EvalOptions struct {
 	Level Level // LevelSection when ""
 	Depth int   // passages fetched per question; DefaultEvalDepth when 0
+	// Progress, when set, is called after each search with the number done
+	// and the total, from several goroutines at once.
+	Progress func(done, total int)
+}
+
+// searchAll runs each query on b, on several goroutines, and returns the
+// documents its hits stand for (collapse), reporting progress.
+func (b *Bundle) searchAll(queries []string, level Level, opt EvalOptions) ([][]eval.Result, error) {
+	results := make([][]eval.Result, len(queries))
+	errs := make([]error, len(queries))
+	var done atomic.Int64
+	forEach(len(queries), func(i int) {
+		hits, err := b.Search(queries[i], opt.depth())
+		if err != nil {
+			errs[i] = err
+			return
+		}
+		results[i] = collapse(hits, level)
+		if opt.Progress != nil {
+			opt.Progress(int(done.Add(1)), len(queries))
+		}
+	})
+	for i, err := range errs {
+		if err != nil {
+			return nil, fmt.Errorf("searching %q: %w", queries[i], err)
+		}
+	}
+	return results, nil
 }
 
 func (o EvalOptions) depth() int {
@@ -73,21 +102,16 @@ func (b *Bundle) RunQueries(qs []eval.Query, opt EvalOptions) (eval.Run, error) 
 	if err != nil {
 		return nil, err
 	}
-	results := make([][]eval.Result, len(qs))
-	errs := make([]error, len(qs))
-	forEach(len(qs), func(i int) {
-		hits, err := b.Search(qs[i].Text, opt.depth())
-		if err != nil {
-			errs[i] = fmt.Errorf("query %s: %w", qs[i].ID, err)
-			return
-		}
-		results[i] = collapse(hits, level)
-	})
+	texts := make([]string, len(qs))
+	for i, q := range qs {
+		texts[i] = q.Text
+	}
+	results, err := b.searchAll(texts, level, opt)
+	if err != nil {
+		return nil, err
+	}
 	run := make(eval.Run, len(qs))
 	for i, q := range qs {
-		if errs[i] != nil {
-			return nil, errs[i]
-		}
 		run[q.ID] = results[i]
 	}
 	return run, nil
@@ -197,39 +221,34 @@ func (b *Bundle) Findability(opt EvalOptions) (*Findability, error) {
 			add(ask{"term", doc, t.Text})
 		}
 	}
-	ranks := make([]int, len(asks))
-	tops := make([]string, len(asks))
-	errs := make([]error, len(asks))
-	forEach(len(asks), func(i int) {
-		hits, err := b.Search(asks[i].query, opt.depth())
-		if err != nil {
-			errs[i] = fmt.Errorf("findability of %s: %w", asks[i].doc, err)
-			return
-		}
-		res := collapse(hits, level)
-		if len(res) > 0 {
-			tops[i] = res[0].Doc
-		}
-		ranks[i] = 1 + slices.IndexFunc(res, func(r eval.Result) bool { return r.Doc == asks[i].doc })
-	})
+	texts := make([]string, len(asks))
+	for i, a := range asks {
+		texts[i] = a.query
+	}
+	results, err := b.searchAll(texts, level, opt)
+	if err != nil {
+		return nil, err
+	}
 	f := &Findability{Level: level, Missed: []Miss{}}
 	for i, a := range asks {
-		if errs[i] != nil {
-			return nil, errs[i]
+		res := results[i]
+		r := 1 + slices.IndexFunc(res, func(x eval.Result) bool { return x.Doc == a.doc })
+		top := ""
+		if len(res) > 0 {
+			top = res[0].Doc
 		}
-		r := ranks[i]
-		at1, top := r == 1, r >= 1 && r <= 10
+		at1, inTop := r == 1, r >= 1 && r <= 10
 		if a.kind == "section" {
 			f.Sections++
 			f.SectionsAt1 += b2i(at1)
-			f.SectionsTop += b2i(top)
+			f.SectionsTop += b2i(inTop)
 		} else {
 			f.Terms++
 			f.TermsAt1 += b2i(at1)
-			f.TermsTop += b2i(top)
+			f.TermsTop += b2i(inTop)
 		}
 		if !at1 {
-			f.Missed = append(f.Missed, Miss{a.kind, a.doc, a.query, r, tops[i]})
+			f.Missed = append(f.Missed, Miss{a.kind, a.doc, a.query, r, top})
 		}
 	}
 	slices.SortFunc(f.Missed, func(x, y Miss) int {

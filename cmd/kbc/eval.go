@@ -168,7 +168,11 @@ func evalBundle(dir string, qs []eval.Query, qrels eval.Qrels, opt bundle.EvalOp
 		return nil, nil, exitFailure
 	}
 	defer b.Close()
+	bar := newProgress(stderr)
+	bar.what = "searching [%s%s] %d/%d questions"
+	opt.Progress = bar.update
 	rep, run, err := b.Evaluate(qs, qrels, opt)
+	bar.finish()
 	if err != nil {
 		warnQueries(stderr, rep, false)
 		fmt.Fprintf(stderr, "kbc eval: %s: %v\n", dir, err)
@@ -342,7 +346,11 @@ func selfReport(dir string, opt bundle.EvalOptions, asJSON bool, stdout, stderr 
 		return exitFailure
 	}
 	defer b.Close()
+	bar := newProgress(stderr)
+	bar.what = "searching [%s%s] %d/%d headings and terms"
+	opt.Progress = bar.update
 	f, err := b.Findability(opt)
+	bar.finish()
 	if err != nil {
 		fmt.Fprintf(stderr, "kbc eval: %v\n", err)
 		return exitFailure
