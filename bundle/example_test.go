@@ -11,6 +11,7 @@ import (
 
 	"github.com/kbc-project/kbc/build"
 	"github.com/kbc-project/kbc/bundle"
+	"github.com/kbc-project/kbc/bundle/eval"
 )
 
 func passage(id, path string, line int, heading []string, text string) build.Passage {
@@ -130,4 +131,43 @@ func Example_serving() {
 	// > warning: stale: review was due 2026-09-02
 	//
 	// Inspect each reefer door seal every week. Replace a seal that fails the paper test.
+}
+
+// This example runs a question set on a bundle and scores it against
+// judgements at section level, as kbc eval does. It has no Output section
+// because it reads real files.
+func ExampleBundle_Evaluate() {
+	open := func(name string) *os.File {
+		f, err := os.Open(name)
+		if err != nil {
+			log.Fatal(err)
+		}
+		return f
+	}
+	qf, jf := open("questions.tsv"), open("questions.qrels")
+	defer qf.Close()
+	defer jf.Close()
+	qs, err := eval.ReadQueries(qf, qf.Name())
+	if err != nil {
+		log.Fatal(err) // every bad line, as file:line: message
+	}
+	qrels, err := eval.ReadQrels(jf, jf.Name())
+	if err != nil {
+		log.Fatal(err)
+	}
+	b, err := bundle.Open("out/bundle")
+	if err != nil {
+		log.Fatal(err)
+	}
+	defer b.Close()
+	rep, _, err := b.Evaluate(qs, qrels, bundle.EvalOptions{Level: bundle.LevelSection})
+	if err != nil {
+		log.Fatal(err)
+	}
+	for _, m := range eval.Measures() {
+		fmt.Printf("%-12s %.4f\n", m, rep.Mean[m])
+	}
+	if len(rep.Unjudged) > 0 {
+		fmt.Println("skipped, no judgements:", rep.Unjudged)
+	}
 }

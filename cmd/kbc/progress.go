@@ -19,6 +19,7 @@ type progress struct {
 	on    bool
 	last  time.Time
 	drawn bool
+	what  string // "%d/%d files" when empty
 }
 
 func newProgress(w io.Writer) *progress {
@@ -42,7 +43,11 @@ func (p *progress) update(done, total int) {
 	if total > 0 {
 		fill = done * width / total
 	}
-	fmt.Fprintf(p.w, "\rreading [%s%s] %d/%d files", strings.Repeat("#", fill), strings.Repeat(".", width-fill), done, total)
+	what := p.what
+	if what == "" {
+		what = "reading [%s%s] %d/%d files"
+	}
+	fmt.Fprintf(p.w, "\r"+what, strings.Repeat("#", fill), strings.Repeat(".", width-fill), done, total)
 	p.drawn = true
 }
 
