@@ -19,12 +19,13 @@ import (
 // Page is one parsed HTML page, ready to map an element id to the anchor of
 // the section that holds the element.
 type Page struct {
-	ids      map[string]*html.Node
-	order    map[*html.Node]int          // preorder position of every node
-	heads    map[*html.Node][]*html.Node // sectioning element (nil: the page) -> its own headings, in order
-	headSet  map[*html.Node]bool
-	textLen  map[*html.Node]int // visible characters below a node
-	headings []*html.Node       // every heading that starts a section, in order
+	ids        map[string]*html.Node
+	order      map[*html.Node]int          // preorder position of every node
+	heads      map[*html.Node][]*html.Node // sectioning element (nil: the page) -> its own headings, in order
+	headSet    map[*html.Node]bool
+	textLen    map[*html.Node]int // visible characters below a node
+	headings   []*html.Node       // every heading that starts a section, in order
+	sectionIDs map[string]bool    // the anchors of the headings
 }
 
 // Heading is a heading that starts a section.
@@ -49,6 +50,12 @@ func ParsePage(r io.Reader) (*Page, error) {
 		textLen: map[*html.Node]int{},
 	}
 	p.walk(root, nil, false)
+	p.sectionIDs = map[string]bool{}
+	for _, h := range p.headings {
+		if a := p.anchor(h); a != "" {
+			p.sectionIDs[a] = true
+		}
+	}
 	return p, nil
 }
 
@@ -101,7 +108,8 @@ func (p *Page) walk(n, sect *html.Node, skip bool) int {
 func (p *Page) Has(id string) bool { _, ok := p.ids[id]; return ok }
 
 // Section returns the anchor of the section that holds the element with id
-// frag. The section is the one whose heading is the last heading at or
+// frag. When frag is a section's own anchor, that is the section.
+// Otherwise the section is the one whose heading is the last heading at or
 // before the element within its enclosing sectioning element (looking
 // outward when that element has none before it); an element that is itself
 // a sectioning element, or that sits, empty, before the first heading of its
@@ -112,6 +120,11 @@ func (p *Page) Section(frag string) (anchor string, ok bool) {
 	el, found := p.ids[frag]
 	if !found {
 		return "", false
+	}
+	// A link to a section's own anchor (an empty <div id> or <a name> just
+	// before its heading, say) lands on that section.
+	if p.sectionIDs[frag] {
+		return frag, true
 	}
 	h := p.sectionOf(el)
 	if h == nil {
