@@ -29,12 +29,12 @@ func main() {
 	corpora := flag.String("corpora", "", "folder holding python-3.11-html and git-2.39-html")
 	handbook := flag.String("handbook", "examples/queries.jsonl", "hand-written questions for examples/handbook (JSON Lines)")
 	out := flag.String("out", "", "folder to write the sets into (created)")
-	limit := flag.Int("index-limit", 1500, "sample the Python index down to about this many queries (0: all)")
+	limit := flag.Int("limit", 1500, "sample python-index and git-options down to about this many queries each (0: all)")
 	bundles := flag.String("bundles", "", "also score each set against the bundle DIR/CORPUS (built by kbc build from that corpus) and print MRR@10 and R@10")
 	verbose := flag.Bool("v", false, "list the link targets that were skipped, and why")
 	flag.Parse()
 	if *out == "" || flag.NArg() > 0 {
-		fmt.Fprintln(os.Stderr, "usage: kbc-qsets -corpora DIR -out DIR [-handbook FILE] [-index-limit N] [-bundles DIR] [-v]")
+		fmt.Fprintln(os.Stderr, "usage: kbc-qsets -corpora DIR -out DIR [-handbook FILE] [-limit N] [-bundles DIR] [-v]")
 		os.Exit(2)
 	}
 	if err := os.MkdirAll(*out, 0o755); err != nil {

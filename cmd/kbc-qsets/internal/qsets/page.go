@@ -19,6 +19,7 @@ import (
 // Page is one parsed HTML page, ready to map an element id to the anchor of
 // the section that holds the element.
 type Page struct {
+	root       *html.Node
 	ids        map[string]*html.Node
 	order      map[*html.Node]int          // preorder position of every node
 	heads      map[*html.Node][]*html.Node // sectioning element (nil: the page) -> its own headings, in order
@@ -49,6 +50,7 @@ func ParsePage(r io.Reader) (*Page, error) {
 		headSet: map[*html.Node]bool{},
 		textLen: map[*html.Node]int{},
 	}
+	p.root = root
 	p.walk(root, nil, false)
 	p.sectionIDs = map[string]bool{}
 	for _, h := range p.headings {
@@ -101,6 +103,20 @@ func (p *Page) walk(n, sect *html.Node, skip bool) int {
 	}
 	p.textLen[n] = chars
 	return chars
+}
+
+// each calls f for every element in document order.
+func (p *Page) each(f func(*html.Node)) {
+	var visit func(n *html.Node)
+	visit = func(n *html.Node) {
+		if n.Type == html.ElementNode {
+			f(n)
+		}
+		for c := n.FirstChild; c != nil; c = c.NextSibling {
+			visit(c)
+		}
+	}
+	visit(p.root)
 }
 
 // Has reports whether the page has an element with this id (or an <a> with

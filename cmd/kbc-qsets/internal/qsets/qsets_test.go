@@ -173,7 +173,7 @@ func TestCorpora(t *testing.T) {
 	for _, err := range errs {
 		t.Error(err)
 	}
-	min := map[string]int{"python-index": 1200, "python-faq": 150, "git-glossary": 80}
+	min := map[string]int{"python-index": 1200, "python-faq": 150, "git-glossary": 80, "git-options": 1000}
 	for _, s := range sets {
 		t.Run(s.Name, func(t *testing.T) {
 			st := s.Stats()

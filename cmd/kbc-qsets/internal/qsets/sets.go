@@ -7,6 +7,7 @@ import (
 	"fmt"
 	"hash/fnv"
 	"io/fs"
+	"math"
 	"net/url"
 	"os"
 	"path"
@@ -119,9 +120,8 @@ type indexEntry struct {
 // one page per letter): every entry and sub-entry with a link is a query,
 // written as the index shows it ("term, subterm"; a parenthesised
 // sub-entry follows its term after a space). When there are more than
-// limit entries, a deterministic sample is kept: the entries whose text
-// hashes (FNV-1a 64) into the first limit/total of the range, so the
-// choice of one entry does not depend on the others.
+// limit entries, a deterministic sample of about limit is kept (see
+// sampled).
 func PythonIndex(fsys fs.FS, limit int) (*Set, error) {
 	names, err := fs.Glob(fsys, "genindex-*.html")
 	if err != nil {
@@ -156,21 +156,13 @@ func PythonIndex(fsys fs.FS, limit int) (*Set, error) {
 		}
 	}
 	set := &Set{Name: "python-index", Corpus: "python-3.11-html"}
-	kept := all
-	if limit > 0 && len(all) > limit {
-		cut := uint64(float64(limit) / float64(len(all)) * (1 << 63) * 2)
-		kept = nil
-		for _, e := range all {
-			h := fnv.New64a()
-			h.Write([]byte(e.text))
-			if h.Sum64() < cut {
-				kept = append(kept, e)
-			}
+	var kept []located
+	for _, e := range all {
+		if sampled(e.text, limit, len(all)) {
+			kept = append(kept, e)
 		}
-		set.Note = fmt.Sprintf("%d of %d index entries (sample by FNV-1a hash of the entry text)", len(kept), len(all))
-	} else {
-		set.Note = fmt.Sprintf("all %d index entries", len(all))
 	}
+	set.Note = sampleNote(len(kept), len(all), "index entries")
 	c := &pages{fsys: fsys, m: map[string]*Page{}}
 	for _, e := range kept {
 		q := Query{Text: e.text}
@@ -190,6 +182,26 @@ func PythonIndex(fsys fs.FS, limit int) (*Set, error) {
 		set.add(q)
 	}
 	return set, nil
+}
+
+// sampled reports whether an item with this text is kept when about limit
+// of total items are wanted (limit 0: all): its FNV-1a 64 hash falls in the
+// first limit/total of the range, so one item's fate does not depend on
+// the others and the sample stays put when the corpus changes elsewhere.
+func sampled(text string, limit, total int) bool {
+	if limit <= 0 || total <= limit {
+		return true
+	}
+	h := fnv.New64a()
+	h.Write([]byte(text))
+	return float64(h.Sum64()) < float64(limit)/float64(total)*math.Exp2(64)
+}
+
+func sampleNote(kept, total int, what string) string {
+	if kept == total {
+		return fmt.Sprintf("all %d %s", total, what)
+	}
+	return fmt.Sprintf("%d of %d %s (sample by FNV-1a hash of the text)", kept, total, what)
 }
 
 // add appends q with its judgements sorted and unique, numbering it; a
@@ -419,9 +431,9 @@ func CheckAnchors(s *Set, have map[string]bool) []string {
 
 // All builds every set whose corpus is present: python-index and
 // python-faq from corpora/python-3.11-html, git-glossary from
-// corpora/git-2.39-html, handbook from the handbook file ("" skips it). A
+// corpora/git-2.39-html and git-options, handbook from the handbook file ("" skips it). A
 // set that cannot be built is reported in errs; the others are returned.
-func All(corpora, handbook string, indexLimit int) (sets []*Set, errs []error) {
+func All(corpora, handbook string, limit int) (sets []*Set, errs []error) {
 	try := func(s *Set, err error) {
 		if err != nil {
 			errs = append(errs, err)
@@ -431,9 +443,11 @@ func All(corpora, handbook string, indexLimit int) (sets []*Set, errs []error) {
 	}
 	if corpora != "" {
 		py := os.DirFS(filepath.Join(corpora, "python-3.11-html"))
-		try(PythonIndex(py, indexLimit))
+		try(PythonIndex(py, limit))
 		try(PythonFAQ(py))
-		try(GitGlossary(os.DirFS(filepath.Join(corpora, "git-2.39-html"))))
+		git := os.DirFS(filepath.Join(corpora, "git-2.39-html"))
+		try(GitGlossary(git))
+		try(GitOptions(git, limit))
 	}
 	if handbook != "" {
 		try(Handbook(handbook))
@@ -455,4 +469,69 @@ func (s *Set) Stats() Stats {
 		st.Pages += len(q.Pages)
 	}
 	return st
+}
+
+// GitOptions builds the set from the command pages (git-*.html): each
+// command-line option the OPTIONS lists define (a <dt> whose text starts
+// with "-", but not the bare "--" separator) is a query "git CMD OPTION", as a user would type it; the
+// section that holds the option's entry is the relevant one. About limit
+// are kept (see sampled).
+func GitOptions(fsys fs.FS, limit int) (*Set, error) {
+	names, err := fs.Glob(fsys, "git-*.html")
+	if err != nil {
+		return nil, err
+	}
+	if len(names) == 0 {
+		return nil, fmt.Errorf("no git-*.html pages")
+	}
+	sort.Strings(names)
+	type option struct {
+		text, page, anchor string
+	}
+	var all []option
+	seen := map[string]bool{}
+	for _, n := range names {
+		b, err := fs.ReadFile(fsys, n)
+		if err != nil {
+			return nil, err
+		}
+		pg, err := ParsePage(bytes.NewReader(b))
+		if err != nil {
+			return nil, fmt.Errorf("%s: %w", n, err)
+		}
+		cmd := strings.Replace(strings.TrimSuffix(n, ".html"), "-", " ", 1)
+		pg.each(func(x *html.Node) {
+			if x.DataAtom != atom.Dt {
+				return
+			}
+			t := Text(x)
+			if !strings.HasPrefix(t, "-") || strings.Trim(t, "-") == "" || seen[cmd+" "+t] {
+				return
+			}
+			seen[cmd+" "+t] = true
+			a := ""
+			if h := pg.sectionOf(x); h != nil {
+				a = pg.anchor(h)
+			}
+			all = append(all, option{cmd + " " + t, n, a})
+		})
+	}
+	set := &Set{Name: "git-options", Corpus: "git-2.39-html"}
+	kept := 0
+	for _, o := range all {
+		if !sampled(o.text, limit, len(all)) {
+			continue
+		}
+		kept++
+		q := Query{Text: o.text, Pages: []string{o.page}}
+		if o.anchor != "" {
+			q.Sections = []string{o.page + "#" + o.anchor}
+		} else {
+			set.Skipped++
+			set.Problems = append(set.Problems, fmt.Sprintf("%s: no section anchor for option %q", o.page, o.text))
+		}
+		set.add(q)
+	}
+	set.Note = sampleNote(kept, len(all), "command-line options")
+	return set, nil
 }
