@@ -22,7 +22,7 @@ func score(dir string, s *qsets.Set) (sec, page qsets.Scores, err error) {
 		return sec, page, err
 	}
 	defer b.Close()
-	return qsets.Score(b, s)
+	return qsets.Measure(b, s)
 }
 
 func main() {
@@ -31,7 +31,7 @@ func main() {
 	out := flag.String("out", "", "folder to write the sets into (created)")
 	limit := flag.Int("limit", 1500, "sample python-index and git-options down to about this many queries each (0: all)")
 	bundles := flag.String("bundles", "", "also score each set against the bundle DIR/CORPUS (built by kbc build from that corpus) and print MRR@10 and R@10")
-	verbose := flag.Bool("v", false, "list the link targets that were skipped, and why")
+	verbose := flag.Bool("v", false, "list the link targets that were skipped, and why, and the judged sections no passage cites")
 	flag.Parse()
 	if *out == "" || flag.NArg() > 0 {
 		fmt.Fprintln(os.Stderr, "usage: kbc-qsets -corpora DIR -out DIR [-handbook FILE] [-limit N] [-bundles DIR] [-v]")
@@ -61,15 +61,27 @@ func main() {
 	}
 	fmt.Printf("written to %s\n", filepath.Clean(*out))
 	if *bundles != "" {
-		fmt.Printf("\n%-14s %7s %7s %8s %8s %7s %8s %8s\n", "set", "queries", "judged", "sec MRR", "sec R@10", "pages", "page MRR", "page R@10")
+		fmt.Printf("\n%-14s %7s | %-29s | %-23s\n", "", "", "section level", "page level")
+		fmt.Printf("%-14s %7s | %6s %7s %6s %7s | %6s %7s %8s\n", "set", "queries", "judged", "uncited", "MRR@10", "R@10", "judged", "MRR@10", "R@10")
 		for _, s := range sets {
-			sec, page, err := score(filepath.Join(*bundles, s.Corpus), s)
+			dir := filepath.Join(*bundles, s.Corpus)
+			sec, page, err := score(dir, s)
+			var uncited []string
+			if err == nil {
+				uncited, err = qsets.Uncited(dir, s)
+			}
 			if err != nil {
 				fmt.Fprintln(os.Stderr, "kbc-qsets:", err)
 				errs = append(errs, err)
 				continue
 			}
-			fmt.Printf("%-14s %7d %7d %8.4f %8.4f %7d %8.4f %8.4f\n", s.Name, len(s.Queries), sec.Queries, sec.MRR, sec.Recall, page.Queries, page.MRR, page.Recall)
+			if *verbose {
+				for _, u := range uncited {
+					fmt.Fprintf(os.Stderr, "uncited: %s: %s\n", s.Name, u)
+				}
+			}
+			fmt.Printf("%-14s %7d | %6d %7d %6.4f %7.4f | %6d %7.4f %8.4f\n", s.Name, len(s.Queries),
+				sec.Queries, len(uncited), sec.MRR, sec.Recall, page.Queries, page.MRR, page.Recall)
 		}
 	}
 	if len(errs) > 0 {

@@ -16,6 +16,7 @@ import (
 	"sort"
 	"strings"
 
+	"github.com/kbc-project/kbc/bundle"
 	"golang.org/x/net/html"
 	"golang.org/x/net/html/atom"
 )
@@ -415,18 +416,28 @@ func Handbook(file string) (*Set, error) {
 	return set, nil
 }
 
-// CheckAnchors returns the section docids of s that are not in have (the
-// path#anchor pairs of a bundle's passages), as "qid: docid" lines.
-func CheckAnchors(s *Set, have map[string]bool) []string {
-	var bad []string
+// Uncited returns the section docids judged in s that no passage of the
+// bundle in dir stands for (bundle.DocID at section level), sorted: a
+// section the bundle folds into the passage of the one before it, or whose
+// anchor it does not find, can never be retrieved by its own docid.
+func Uncited(dir string, s *Set) ([]string, error) {
+	ps, err := bundle.ReadPassages(dir)
+	if err != nil {
+		return nil, err
+	}
+	have := make(map[string]bool, len(ps))
+	for i := range ps {
+		have[bundle.DocID(&ps[i], bundle.LevelSection)] = true
+	}
+	var out []string
 	for _, q := range s.Queries {
 		for _, d := range q.Sections {
 			if !have[d] {
-				bad = append(bad, q.ID+": "+d)
+				out = append(out, q.ID+" "+d)
 			}
 		}
 	}
-	return bad
+	return out, nil
 }
 
 // All builds every set whose corpus is present: python-index and
