@@ -234,3 +234,55 @@ func FuzzSection(f *testing.F) {
 		p.Headings()
 	})
 }
+
+// TestSmallSets builds the FAQ, glossary and option sets from hand-made
+// pages.
+func TestSmallSets(t *testing.T) {
+	show := func(s *Set) string {
+		var b strings.Builder
+		for _, q := range s.Queries {
+			b.WriteString(q.Text + " -> " + strings.Join(q.Sections, ",") + " | " + strings.Join(q.Pages, ",") + "\n")
+		}
+		return b.String()
+	}
+	faq, err := PythonFAQ(os.DirFS("testdata/site"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	// The FAQ's contents page is left out; category headings with
+	// questions below them are not questions; the note's heading is none.
+	want := `Where do I park? -> faq/general.html#where-do-i-park | faq/general.html
+Who signs me in? -> faq/general.html#id1 | faq/general.html
+Can I bring a guest? -> faq/general.html#can-i-bring-a-guest | faq/general.html
+`
+	if got := show(faq); got != want {
+		t.Errorf("python-faq:\n%s\nwant:\n%s", got, want)
+	}
+	gl, err := GitGlossary(os.DirFS("testdata/git"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	want = `bay -> gitglossary.html#_description | gitglossary.html
+cold chain -> gitglossary.html#_description | gitglossary.html
+`
+	if got := show(gl); got != want {
+		t.Errorf("git-glossary:\n%s\nwant:\n%s", got, want)
+	}
+	opt, err := GitOptions(os.DirFS("testdata/git"), 0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	// "--" and "<path>" are no options; --quiet sits under a heading no
+	// link lands on: page judgement only, and counted.
+	want = `git frob -f -> git-frob.html#_options | git-frob.html
+git frob --force -> git-frob.html#_options | git-frob.html
+git frob --color[=<when>] -> git-frob.html#_output_options | git-frob.html
+git frob --quiet ->  | git-frob.html
+`
+	if got := show(opt); got != want {
+		t.Errorf("git-options:\n%s\nwant:\n%s", got, want)
+	}
+	if opt.Skipped != 1 || opt.SkippedQueries != 1 {
+		t.Errorf("git-options: skipped %d targets, %d queries; want 1, 1", opt.Skipped, opt.SkippedQueries)
+	}
+}

@@ -306,6 +306,9 @@ func PythonFAQ(fsys fs.FS) (*Set, error) {
 	if err != nil {
 		return nil, err
 	}
+	if len(names) == 0 {
+		return nil, fmt.Errorf("no faq/*.html pages")
+	}
 	sort.Strings(names)
 	set := &Set{Name: "python-faq", Corpus: "python-3.11-html", Note: "FAQ question headings"}
 	for _, n := range names {
@@ -453,12 +456,22 @@ func All(corpora, handbook string, limit int) (sets []*Set, errs []error) {
 		sets = append(sets, s)
 	}
 	if corpora != "" {
-		py := os.DirFS(filepath.Join(corpora, "python-3.11-html"))
-		try(PythonIndex(py, limit))
-		try(PythonFAQ(py))
-		git := os.DirFS(filepath.Join(corpora, "git-2.39-html"))
-		try(GitGlossary(git))
-		try(GitOptions(git, limit))
+		corpus := func(name string) fs.FS {
+			dir := filepath.Join(corpora, name)
+			if _, err := os.Stat(dir); err != nil {
+				errs = append(errs, err)
+				return nil
+			}
+			return os.DirFS(dir)
+		}
+		if py := corpus("python-3.11-html"); py != nil {
+			try(PythonIndex(py, limit))
+			try(PythonFAQ(py))
+		}
+		if git := corpus("git-2.39-html"); git != nil {
+			try(GitGlossary(git))
+			try(GitOptions(git, limit))
+		}
 	}
 	if handbook != "" {
 		try(Handbook(handbook))
