@@ -11,6 +11,7 @@ import (
 	"fmt"
 	"os"
 	"path/filepath"
+	"time"
 
 	"github.com/kbc-project/kbc/bundle"
 	"github.com/kbc-project/kbc/cmd/kbc-qsets/internal/qsets"
@@ -31,6 +32,7 @@ func main() {
 	out := flag.String("out", "", "folder to write the sets into (created)")
 	limit := flag.Int("limit", 1500, "sample python-index and git-options down to about this many queries each (0: all)")
 	bundles := flag.String("bundles", "", "also score each set against the bundle DIR/CORPUS (built by kbc build from that corpus) and print MRR@10 and R@10")
+	budget := flag.Int("context", 0, "with -bundles, also assemble each question's context within this many tokens (kbc context) and print the share of blocks holding a judged section, by MMR and by score alone")
 	verbose := flag.Bool("v", false, "list the link targets that were skipped, and why, and the judged sections no passage cites")
 	flag.Parse()
 	if *out == "" || flag.NArg() > 0 {
@@ -84,7 +86,40 @@ func main() {
 				sec.Queries, len(uncited), sec.MRR, sec.Recall, page.Queries, page.MRR, page.Recall)
 		}
 	}
+	if *bundles != "" && *budget > 0 {
+		errs = append(errs, contextTable(sets, *bundles, *budget)...)
+	}
 	if len(errs) > 0 {
 		os.Exit(1)
 	}
+}
+
+// contextTable prints, per set, how many of the blocks kbc context
+// assembles hold a judged section: chosen by maximal marginal relevance
+// (the default lambda) and by score alone (lambda 1).
+func contextTable(sets []*qsets.Set, bundles string, budget int) []error {
+	var errs []error
+	now := time.Date(2026, 12, 1, 0, 0, 0, 0, time.UTC)
+	fmt.Printf("\ncontext within %d tokens: share of blocks holding a judged section (questions with one)\n", budget)
+	fmt.Printf("%-14s %9s | %-26s | %-26s\n", "set", "questions", "MMR (lambda 0.7)", "by score (lambda 1)")
+	for _, s := range sets {
+		b, err := bundle.Open(filepath.Join(bundles, s.Corpus))
+		if err != nil {
+			errs = append(errs, err)
+			continue
+		}
+		var row [2]qsets.ContextShare
+		for i, lambda := range []float64{bundle.DefaultLambda, 1} {
+			if row[i], err = qsets.MeasureContext(b, s, budget, lambda, now); err != nil {
+				errs = append(errs, err)
+			}
+		}
+		b.Close()
+		fmt.Printf("%-14s %9d | %5.3f (%5.3f) %4.1f blocks | %5.3f (%5.3f) %4.1f blocks\n", s.Name, row[0].Questions,
+			row[0].Relevant, row[0].Answered, row[0].Blocks, row[1].Relevant, row[1].Answered, row[1].Blocks)
+	}
+	for _, err := range errs {
+		fmt.Fprintln(os.Stderr, "kbc-qsets:", err)
+	}
+	return errs
 }
