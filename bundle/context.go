@@ -35,6 +35,12 @@ type ContextOptions struct {
 	// times the passages the budget holds at the bundle's aim size, at
 	// least 20.
 	Fetch int
+	// Tokenizer counts the budget; nil makes the bundle's own on first
+	// use. Loading its vocabulary is most of a first Context call, so a
+	// program that answers once can make one and Preload it before Open,
+	// and a server can share one; one of another encoding than the
+	// bundle's is not used.
+	Tokenizer *build.Tokenizer
 }
 
 // DefaultLambda is the weight of relevance in maximal marginal relevance.
@@ -100,11 +106,14 @@ func (b *Bundle) Context(question string, opts ContextOptions) (*Context, error)
 	if lambda < 0 || lambda > 1 {
 		return nil, fmt.Errorf("context: lambda %g is not in [0, 1]", lambda)
 	}
-	tok, err := b.tokenizer()
-	if err != nil {
-		return nil, err
-	}
 	set := b.contextSettings()
+	tok := opts.Tokenizer
+	if tok == nil || tok.Name() != set.Tokenizer {
+		var err error
+		if tok, err = b.tokenizer(); err != nil {
+			return nil, err
+		}
+	}
 	so := opts.SearchOptions
 	so.K = cmp.Or(opts.Fetch, max(20, 5*opts.Budget/max(set.AimTokens, 1)))
 	if so.Now.IsZero() {
