@@ -386,3 +386,28 @@ func TestSnippet(t *testing.T) {
 		})
 	}
 }
+
+// TestAudience: the preview obeys the audience rule of bundle.Query: a
+// passage labelled for an audience shows only on a server started for it.
+func TestAudience(t *testing.T) {
+	docs := map[string]string{
+		"crew/pay.md":  "---\ntitle: Crew pay\naudience: payroll\n---\n# Crew pay\n\nNight crossings are paid at the harbour night rate.\n",
+		"timetable.md": "---\ntitle: Timetable\n---\n# Timetable\n\nNight crossings leave the north pier at 23:40.\n",
+	}
+	out := filepath.Join(t.TempDir(), "bundle")
+	buildBundle(t, writeDocs(t, docs), out)
+	for _, tt := range []struct {
+		audiences []string
+		want      bool
+	}{{nil, false}, {[]string{"deckhands"}, false}, {[]string{"payroll"}, true}} {
+		s, err := New(out, tt.audiences...)
+		if err != nil {
+			t.Fatal(err)
+		}
+		body := get(t, s, "GET", "/results?q=night+crossings", "").Body.String()
+		if !strings.Contains(body, "timetable.md") || strings.Contains(body, "crew/pay.md") != tt.want {
+			t.Errorf("audiences %q: pay page shown %v, want %v\n%s", tt.audiences, strings.Contains(body, "crew/pay.md"), tt.want, body)
+		}
+		s.Close()
+	}
+}

@@ -57,6 +57,8 @@ type Server struct {
 	tmpl *template.Template
 	csp  string
 	now  func() time.Time // the clock freshness is judged by
+	// audiences are the audience labels the page's reader may see.
+	audiences []string
 
 	mu  sync.RWMutex
 	cur *handle // nil after Close
@@ -77,8 +79,10 @@ type handle struct {
 }
 
 // New opens the bundle in dir (see bundle.Open) and returns a Server for
-// it. Close the Server when done.
-func New(dir string) (*Server, error) {
+// it. The page shows what bundle.Query gives a caller cleared for
+// audiences: passages labelled for another audience are left out. Close
+// the Server when done.
+func New(dir string, audiences ...string) (*Server, error) {
 	h, err := openHandle(dir)
 	if err != nil {
 		return nil, err
@@ -89,11 +93,12 @@ func New(dir string) (*Server, error) {
 		return nil, fmt.Errorf("preview: page template: %w", err)
 	}
 	s := &Server{
-		tmpl: tmpl,
-		now:  time.Now,
-		cur:  h,
-		subs: make(map[chan string]struct{}),
-		done: make(chan struct{}),
+		tmpl:      tmpl,
+		now:       time.Now,
+		audiences: audiences,
+		cur:       h,
+		subs:      make(map[chan string]struct{}),
+		done:      make(chan struct{}),
 		// CSP level 2 hash sources (W3C Content Security Policy Level 2,
 		// section 4.2.5): only the inline style and script whose SHA-256
 		// is named here may run, nothing may be loaded from elsewhere.

@@ -9,6 +9,7 @@ import (
 
 	"github.com/kbc-project/kbc/build"
 	"github.com/kbc-project/kbc/build/fresh"
+	"github.com/kbc-project/kbc/bundle"
 )
 
 // page is what the templates render.
@@ -77,13 +78,13 @@ func (s *Server) view(h *handle, query string, k int) *page {
 	}
 	v.Searched = true
 	start := time.Now()
-	hits, err := h.b.Search(query, k)
+	now := s.now()
+	hits, err := h.b.Query(query, bundle.SearchOptions{K: k, Audiences: s.audiences, Now: now})
 	v.Took = fmt.Sprintf("%.1f ms", float64(time.Since(start).Microseconds())/1000)
 	if err != nil {
 		v.Error = err.Error()
 		return v
 	}
-	now := s.now()
 	v.Hits = make([]hitView, len(hits))
 	for i, hit := range hits {
 		v.Hits[i] = newHitView(i+1, hit.Score, &hit.Passage, now, h.dueSoon)

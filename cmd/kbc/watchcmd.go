@@ -36,6 +36,8 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 	debounce := fs.Duration("debounce", watch.DefaultDebounce, "quiet period after the last change before a rebuild")
 	serve := fs.String("serve", "", "serve a live preview page on ADDR (host:port, loopback only unless --serve-any)")
 	serveAny := fs.Bool("serve-any", false, "allow --serve on an address other than loopback")
+	var audiences multiFlag
+	fs.Var(&audiences, "audience", "with --serve: an audience the preview's reader may see (repeatable); passages labelled for others are left out")
 	sf := addSourceFlags(fs)
 	pos, code := parseArgs(fs, args, stdout)
 	if code >= 0 {
@@ -129,7 +131,7 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 	}
 	rebuild(ctx)
 	if ln != nil {
-		if pv, err = preview.New(*out); err != nil {
+		if pv, err = preview.New(*out, audiences...); err != nil {
 			fmt.Fprintf(stderr, "kbc watch: %v\n", err)
 			return exitFailure
 		}
