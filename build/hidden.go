@@ -69,16 +69,17 @@ func stripInvisible(s string, drop func(off int, reason string)) string {
 	return string(b)
 }
 
-// blockLine returns the source line of byte off of b's text: in a code
-// block, whose lines are the source's, the block's line plus the lines
-// before off (and the opening fence); elsewhere, where text is reflowed,
-// the block's first line.
-func blockLine(b sources.Block, off int) int {
+// blockLine returns the source line of byte off of b's text, in a
+// document of kind k: in a code block, whose lines are the source's, the
+// block's line plus the lines before off (and the opening fence of a
+// Markdown fenced block); elsewhere, where text is reflowed, the block's
+// first line.
+func blockLine(k sources.Kind, b sources.Block, off int) int {
 	if b.Kind != sources.Code {
 		return b.Line
 	}
 	nl := strings.Count(b.Text[:off], "\n")
-	if b.EndLine-b.Line+1 > strings.Count(b.Text, "\n")+1 {
+	if k != sources.HTML && b.EndLine-b.Line+1 > strings.Count(b.Text, "\n")+1 {
 		nl++ // the opening fence line (```), which the text leaves out
 	}
 	return min(b.Line+nl, max(b.EndLine, b.Line))
@@ -105,7 +106,7 @@ func dropInvisible(doc *sources.Document) {
 	for i := range doc.Blocks {
 		b := &doc.Blocks[i]
 		orig := *b
-		b.Text = stripInvisible(b.Text, func(off int, r string) { doc.AddHidden(r, blockLine(orig, off), 1) })
+		b.Text = stripInvisible(b.Text, func(off int, r string) { doc.AddHidden(r, blockLine(doc.Kind, orig, off), 1) })
 	}
 }
 
@@ -147,7 +148,7 @@ func lintAssistant(doc *sources.Document) {
 			continue
 		}
 		for _, loc := range addressesAssistant.FindAllStringIndex(b.Text, -1) {
-			doc.Lints = append(doc.Lints, sources.Mark{Reason: lintReason(b.Text[loc[0]:loc[1]]), Line: blockLine(b, loc[0]), Count: 1})
+			doc.Lints = append(doc.Lints, sources.Mark{Reason: lintReason(b.Text[loc[0]:loc[1]]), Line: blockLine(doc.Kind, b, loc[0]), Count: 1})
 		}
 	}
 }

@@ -30,7 +30,7 @@ func redactSecrets(doc *sources.Document) {
 		b := &doc.Blocks[i]
 		text, fs := secrets.Redact(b.Text)
 		for _, f := range fs {
-			doc.Secrets = append(doc.Secrets, sources.Mark{Reason: f.Rule, Line: blockLine(*b, f.Start), Count: 1})
+			doc.Secrets = append(doc.Secrets, sources.Mark{Reason: f.Rule, Line: blockLine(doc.Kind, *b, f.Start), Count: 1})
 		}
 		b.Text = text
 	}

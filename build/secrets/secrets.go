@@ -37,6 +37,9 @@ const (
 	minEntropyHex = 3.0 // bits per character, hex digits only
 	minLen        = 20
 	minLenHex     = 32
+	// A password in a URL shorter than this is a stand-in (abc:xyz,
+	// user:pw); a real one is longer. Common practice, no source.
+	minURLPassword = 6
 )
 
 // Find returns the credentials in text, ordered by position and never
@@ -170,9 +173,9 @@ func findURLPasswords(text string, fs []Finding) []Finding {
 		if end >= len(text) || text[end] != '@' || colon < 0 || colon == at {
 			continue
 		}
-		user, pass := text[at:colon], text[colon+1:end]
+		pass := text[colon+1 : end]
 		off = end
-		if pass == "" || placeholder(pass) || placeholder(user) && passwordWord(pass) {
+		if len(pass) < minURLPassword || placeholder(pass) {
 			continue
 		}
 		fs = append(fs, Finding{Rule: PasswordURL, Start: colon + 1, End: end})
@@ -252,11 +255,22 @@ func classify(text string, i, j int) (string, int, int) {
 	if !random(v) || placeholder(v) {
 		return "", 0, 0
 	}
+	if j < len(text) && text[j] == '(' {
+		return "", 0, 0 // a function's name, not a value
+	}
 	name, ok := assignedName(text, i)
 	if !ok {
 		return "", 0, 0
 	}
 	n := strings.NewReplacer("_", "", "-", "", ".", "").Replace(name)
+	if strings.Contains(n, "pub") || publicLabel(text, i) {
+		return "", 0, 0 // a public key is no secret
+	}
+	if hexOnly(v) && !strongName(n) {
+		// A hex value after a bare "key" is a key's ID or fingerprint
+		// (Root Key: 3cb2...), public by design.
+		return "", 0, 0
+	}
 	if len(w) == 40 && base64Only(w) && (strings.Contains(n, "secretaccesskey") || strings.Contains(n, "aws") && strings.Contains(n, "secret")) {
 		return AWSSecretKey, i, j
 	}
@@ -359,6 +373,47 @@ func assignedName(text string, i int) (string, bool) {
 	return "", false
 }
 
+// publicLabel reports whether the line before the value at i says
+// "public" within 40 bytes (Issuer Public Key: ...).
+func publicLabel(text string, i int) bool {
+	s := max(0, i-40)
+	if nl := strings.LastIndexByte(text[s:i], '\n'); nl >= 0 {
+		s += nl + 1
+	}
+	before := text[s:i]
+	for k := 0; k+6 <= len(before); k++ {
+		if strings.EqualFold(before[k:k+6], "public") {
+			return true
+		}
+	}
+	return false
+}
+
+// strongWords make a name a secret's name on their own; a bare "key"
+// does not (key IDs, fingerprints, cache keys).
+var strongWords = []string{"secret", "token", "passw", "pwd", "credential", "auth", "apikey", "accesskey", "privatekey", "signingkey", "masterkey"}
+
+// strongName reports whether the name n (lower case, without _ - .) holds
+// one of strongWords.
+func strongName(n string) bool {
+	for _, w := range strongWords {
+		if strings.Contains(n, w) {
+			return true
+		}
+	}
+	return false
+}
+
+func hexOnly(s string) bool {
+	for k := 0; k < len(s); k++ {
+		c := s[k]
+		if !(isDigit(c) || 'a' <= c && c <= 'f' || 'A' <= c && c <= 'F') {
+			return false
+		}
+	}
+	return true
+}
+
 // placeholderWords are values that stand for a credential in examples.
 // The list is common practice in documentation, not from a source.
 var placeholderWords = map[string]bool{
@@ -416,9 +471,17 @@ func isBase64(c byte) bool { return isLetter(c) || isDigit(c) || c == '+' || c =
 
 // isWordChar reports whether c may be part of a credential value ('='
 // only as base64 padding at its end; see findWords).
-func isWordChar(c byte) bool {
-	return isLetter(c) || isDigit(c) || c == '+' || c == '/' || c == '_' || c == '-'
-}
+func isWordChar(c byte) bool { return wordChars[c] }
+
+// wordChars is isWordChar as a table, read on every byte of the text;
+// it is never written after it is made.
+var wordChars = func() (t [256]bool) {
+	for c := 0; c < 256; c++ {
+		b := byte(c)
+		t[c] = isLetter(b) || isDigit(b) || b == '+' || b == '/' || b == '_' || b == '-'
+	}
+	return t
+}()
 
 func upperAlnum(s string) bool {
 	for k := 0; k < len(s); k++ {
