@@ -2,6 +2,8 @@ package build
 
 import (
 	"sort"
+	"strings"
+	"unicode"
 
 	"github.com/kbc-project/kbc/build/secrets"
 	"github.com/kbc-project/kbc/sources"
@@ -20,9 +22,16 @@ func redactSecrets(doc *sources.Document) {
 	}
 	for i := range doc.Headings {
 		h := &doc.Headings[i]
+		orig := h.Text
 		if h.Text, fs = secrets.Redact(h.Text); len(fs) > 0 {
 			for _, f := range fs {
 				doc.Secrets = append(doc.Secrets, sources.Mark{Reason: f.Rule, Line: h.Line, Count: 1})
+				// The heading's slug spells the value too: a link to it
+				// no longer lands, but the value must not travel with
+				// every passage of the section.
+				if v := slugOf(orig[f.Start:f.End]); len(v) >= 4 {
+					h.Anchor = strings.ReplaceAll(h.Anchor, v, "secret-removed")
+				}
 			}
 		}
 	}
@@ -77,4 +86,16 @@ func NewSecretsReport(docs []*sources.Document) *SecretsReport {
 	})
 	r.Total = len(r.Findings)
 	return r
+}
+
+// slugOf returns v as a heading slug spells it: lower case, letters,
+// digits, '-' and '_' kept, the rest dropped.
+func slugOf(v string) string {
+	var b strings.Builder
+	for _, r := range strings.ToLower(v) {
+		if unicode.IsLetter(r) || unicode.IsDigit(r) || r == '-' || r == '_' {
+			b.WriteRune(r)
+		}
+	}
+	return b.String()
 }
