@@ -49,6 +49,7 @@ type Config struct {
 		MaxStale        string `toml:"max_stale"`   // "N" documents or "N%"
 		MaxUnknown      string `toml:"max_unknown"` // "N" undated documents or "N%"
 		FailOnDivergent *bool  `toml:"fail_on_divergent"`
+		FailOnSecrets   *bool  `toml:"fail_on_secrets"`
 	} `toml:"gates"`
 
 	// lines maps a dotted key ("freshness.due_soon") to its line, for

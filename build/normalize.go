@@ -19,6 +19,10 @@ import (
 //   - line ends (CR LF, CR, NEL, U+2028, U+2029) become "\n";
 //   - tabs and every other Unicode space (no-break, thin, ideographic...)
 //     become a plain space;
+//   - Unicode tag characters (U+E0000-E007F) and bidirectional
+//     embeddings, overrides and isolates (U+202A-202E, U+2066-2069) are
+//     dropped from every text, code included, and counted in doc.Hidden
+//     by reason and line: they hide text from readers or reorder it;
 //   - soft hyphens (U+00AD), zero-width spaces (U+200B), word joiners
 //     (U+2060), byte order marks (U+FEFF) and other control characters are
 //     dropped; the zero-width joiner and non-joiner (U+200D, U+200C) are
@@ -37,6 +41,7 @@ import (
 // Normalize is idempotent. It touches only doc, so documents can be
 // normalised on several goroutines at once.
 func Normalize(doc *sources.Document) {
+	dropInvisible(doc)
 	doc.Title = normalizeText(doc.Title, false)
 	for i := range doc.Headings {
 		doc.Headings[i].Text = normalizeText(doc.Headings[i].Text, false)

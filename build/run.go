@@ -69,6 +69,9 @@ type Stats struct {
 	Divergent          int   `json:"divergent"`           // near copies that differ in numbers, dates or units
 	Stale              int   `json:"stale"`               // documents stale or expired
 	Reused             int   `json:"reused"`              // documents taken from the build cache, not parsed
+	Secrets            int   `json:"secrets"`             // credentials replaced by a marker
+	Hidden             int   `json:"hidden"`              // characters and elements dropped as hidden from readers
+	Lints              int   `json:"lints"`               // visible text flagged as addressing an assistant
 }
 
 // Result is everything one build produced, sorted so that the same input
@@ -79,6 +82,8 @@ type Result struct {
 	Problems    []*sources.Error   // every bad input, by path and line
 	Staleness   *StalenessReport
 	Duplicates  *DuplicateReport
+	Secrets     *SecretsReport
+	Hidden      *HiddenReport
 	Stats       Stats
 }
 
@@ -220,6 +225,8 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 		dated = append(dated, DocFreshness{Path: d.Path, Title: d.Title, Info: infos[i]})
 	}
 	res.Staleness = NewStalenessReport(dated, now, opts.Fresh)
+	res.Secrets, res.Hidden = NewSecretsReport(docs), NewHiddenReport(docs)
+	res.Stats.Secrets, res.Stats.Hidden, res.Stats.Lints = res.Secrets.Total, res.Hidden.Total, len(res.Hidden.Lints)
 	res.Stats.Stale = res.Staleness.Counts.StaleOrExpired()
 
 	// Stage 3: find the site boilerplate across all documents.
@@ -373,7 +380,9 @@ func readDocument(fsys fs.FS, f sources.File, maxSize int64, cache *Cache) (doc 
 	return doc, keys, len(doc.Blocks), false, nil
 }
 
-// parseDocument parses and normalises the bytes of the file f.
+// parseDocument parses and normalises the bytes of the file f, replaces
+// the credentials in its text with markers and flags text that addresses
+// an assistant.
 func parseDocument(f sources.File, data []byte) (*sources.Document, *sources.Error) {
 	doc, err := sources.Parse(f.Path, data)
 	if err != nil {
@@ -389,6 +398,8 @@ func parseDocument(f sources.File, data []byte) (*sources.Document, *sources.Err
 	if hadText && len(doc.Blocks) == 0 {
 		return nil, sources.ErrNoText(f.Path)
 	}
+	redactSecrets(doc)
+	lintAssistant(doc)
 	return doc, nil
 }
 

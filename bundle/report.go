@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"encoding/json"
 	"fmt"
+	"sort"
 	"strings"
 	"time"
 
@@ -19,6 +20,10 @@ const (
 	DuplicatesMD      = "reports/duplicates.md"
 	BoilerplateJSON   = "reports/boilerplate.json"
 	BoilerplateMD     = "reports/boilerplate.md"
+	SecretsJSON       = "reports/secrets.json"
+	SecretsMD         = "reports/secrets.md"
+	HiddenJSON        = "reports/hidden.json"
+	HiddenMD          = "reports/hidden.md"
 )
 
 // MarshalReport encodes a report as indented JSON with a final newline.
@@ -157,4 +162,66 @@ func RenderDuplicates(r *build.DuplicateReport) []byte {
 		fmt.Fprintf(&b, "| %s | %s | %s |\n", mdCell(c.Canonical.Ref()), kind, mdCell(strings.Join(copies, ", ")))
 	}
 	return b.Bytes()
+}
+
+// RenderSecrets writes the secrets report as Markdown: the caution, counts
+// per rule, then every finding by path:line. Values are never written.
+func RenderSecrets(r *build.SecretsReport) []byte {
+	var b bytes.Buffer
+	fmt.Fprintf(&b, "# Secrets found\n\n> **Caution.** %s\n\n", r.Caution)
+	if r.Total == 0 {
+		fmt.Fprintf(&b, "None found.\n")
+		return b.Bytes()
+	}
+	fmt.Fprintf(&b, "%d credential(s) replaced by a marker such as `%s`.\n\n| rule | found |\n|---|---:|\n", r.Total, "[secret removed: RULE]")
+	for _, rule := range sortedKeys(r.Rules) {
+		fmt.Fprintf(&b, "| %s | %d |\n", rule, r.Rules[rule])
+	}
+	fmt.Fprintf(&b, "\n| where | rule |\n|---|---|\n")
+	for _, f := range r.Findings {
+		fmt.Fprintf(&b, "| %s:%d | %s |\n", mdCell(f.Path), f.Line, f.Rule)
+	}
+	return b.Bytes()
+}
+
+// RenderHidden writes the hidden-text report as Markdown: the caution,
+// counts per reason, the pages with text dropped, then the lints.
+func RenderHidden(r *build.HiddenReport) []byte {
+	var b bytes.Buffer
+	fmt.Fprintf(&b, "# Hidden text\n\n> **Caution.** %s\n\n## Dropped\n\n", r.Caution)
+	if r.Total == 0 {
+		fmt.Fprintf(&b, "None.\n")
+	} else {
+		fmt.Fprintf(&b, "%d character(s) or element(s) on %d page(s).\n\n| reason | dropped |\n|---|---:|\n", r.Total, len(r.Pages))
+		for _, k := range sortedKeys(r.Reasons) {
+			fmt.Fprintf(&b, "| %s | %d |\n", k, r.Reasons[k])
+		}
+		fmt.Fprintf(&b, "\n| page | dropped | where |\n|---|---:|---|\n")
+		for _, p := range r.Pages {
+			var at []string
+			for _, m := range p.At {
+				at = append(at, fmt.Sprintf("%s:%d %s x%d", p.Path, m.Line, m.Reason, m.Count))
+			}
+			fmt.Fprintf(&b, "| %s | %d | %s |\n", mdCell(p.Path), p.Total, mdCell(strings.Join(at, ", ")))
+		}
+	}
+	fmt.Fprintf(&b, "\n## Text that addresses an assistant\n\n")
+	if len(r.Lints) == 0 {
+		fmt.Fprintf(&b, "None.\n")
+		return b.Bytes()
+	}
+	fmt.Fprintf(&b, "Kept in the passages; check that each is meant for human readers.\n\n| where | phrasing |\n|---|---|\n")
+	for _, l := range r.Lints {
+		fmt.Fprintf(&b, "| %s:%d | %s |\n", mdCell(l.Path), l.Line, l.Reason)
+	}
+	return b.Bytes()
+}
+
+func sortedKeys(m map[string]int) []string {
+	keys := make([]string, 0, len(m))
+	for k := range m {
+		keys = append(keys, k)
+	}
+	sort.Strings(keys)
+	return keys
 }

@@ -48,6 +48,40 @@ type Document struct {
 	// Warnings are problems that did not stop the document from being read
 	// (a broken front matter block, invalid UTF-8 that was replaced).
 	Warnings []*Error `json:"warnings,omitempty"`
+	// Hidden counts text left out because a reader of the page would not
+	// see it, by reason and source line: the readers add theirs (an
+	// element styled invisible), normalisation its own (invisible Unicode).
+	Hidden []Mark `json:"hidden,omitempty"`
+	// Secrets lists the credentials replaced by a marker in the text, by
+	// rule and source line; the values are never kept.
+	Secrets []Mark `json:"secrets,omitempty"`
+	// Lints lists visible text kept but flagged, by what was found and
+	// source line (text that addresses an AI assistant).
+	Lints []Mark `json:"lints,omitempty"`
+}
+
+// Mark is one thing found on a page at a source line: what it is
+// (Reason, e.g. "unicode-tag", "aws-access-key") and how many (Count;
+// characters for invisible Unicode, elements for hidden elements).
+type Mark struct {
+	Reason string `json:"reason"`
+	Line   int    `json:"line,omitempty"` // 1-based; 0 when unknown (the title)
+	Count  int    `json:"count,omitempty"`
+}
+
+// AddHidden records n units of text dropped at line for reason, adding to
+// the count of an earlier mark with the same reason and line.
+func (d *Document) AddHidden(reason string, line, n int) {
+	if n <= 0 {
+		return
+	}
+	for i := range d.Hidden {
+		if m := &d.Hidden[i]; m.Reason == reason && m.Line == line {
+			m.Count += n
+			return
+		}
+	}
+	d.Hidden = append(d.Hidden, Mark{Reason: reason, Line: line, Count: n})
 }
 
 // Heading is one heading of a document. Headings form a tree through Parent.

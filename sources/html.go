@@ -31,6 +31,7 @@ func parseHTML(doc *Document, src []byte) error {
 		e.root = r
 		e.container(r, Paragraph)
 	}
+	t.countStyled(doc, e.li)
 	doc.Title = t.title()
 	if doc.Title == "" {
 		for _, h := range doc.Headings {
@@ -87,6 +88,8 @@ type htmlTree struct {
 	nodes []hnode // nodes[0] is the document
 	attrs []hattr
 	text  []byte // text of the text nodes that needed decoding
+	// styled lists the elements an inline style hides (hiddencss.go).
+	styled []styledHidden
 }
 
 // textOf returns the text of text node n.
@@ -365,6 +368,9 @@ func (b *htmlBuilder) startTag(start, end int, selfClosing bool) {
 		case htmlAttrStyle:
 			if htmlDisplayNone(v) {
 				display = false
+			} else if r, ok := hiddenByStyle(string(v)); ok {
+				display = false
+				t.styled = append(t.styled, styledHidden{r, start, b.drops > 0})
 			}
 		}
 	}

@@ -324,7 +324,7 @@ func anchorIn(raw []byte) string {
 	if bytes.Index(raw, []byte("<a")) < 0 && bytes.Index(raw, []byte("<A")) < 0 {
 		return ""
 	}
-	_, a := mdHTMLText(raw)
+	_, a, _ := mdHTMLText(raw)
 	return a
 }
 
@@ -392,7 +392,10 @@ func (w *mdWalker) htmlBlock(n *ast.HTMLBlock, kind BlockKind) {
 		return
 	}
 	raw := appendLines(nil, n, w.src)
-	t, _ := mdHTMLText(raw)
+	t, _, hidden := mdHTMLText(raw)
+	for _, r := range hidden {
+		w.doc.AddHidden(r.reason, w.li.Line(w.pos(lines.At(0).Start)+r.start), 1)
+	}
 	end := lines.At(lines.Len() - 1).Stop
 	if n.HasClosure() {
 		end = n.ClosureLine.Stop
@@ -451,6 +454,12 @@ func (w *mdWalker) table(n *east.Table) {
 func (w *mdWalker) inline(n ast.Node, b []byte) []byte {
 	src := w.src
 	for c := n.FirstChild(); c != nil; c = c.NextSibling() {
+		if r, ok := c.(*ast.RawHTML); ok {
+			if last := w.skipHidden(r); last != nil {
+				c = last // go on after the hidden element (hiddencss.go)
+				continue
+			}
+		}
 		switch c := c.(type) {
 		case *ast.Text:
 			v := c.Segment.Value(src)
@@ -652,18 +661,40 @@ func cleanText(b []byte) string {
 // mdHTMLText returns the visible text of an HTML fragment (no tags,
 // comments, scripts or styles; image alt text kept; block-level tags and
 // <br> become line breaks, table cells a space) and the id or name of its
-// last <a> element.
-func mdHTMLText(raw []byte) (text, anchor string) {
+// last <a> element. Elements hidden by their attributes (htmlTagHides)
+// are left out with their content and listed, with their offsets in raw.
+func mdHTMLText(raw []byte) (text, anchor string, hidden []styledHidden) {
 	z := html.NewTokenizer(bytes.NewReader(raw))
 	var b []byte
 	skip := 0
+	hide, depth, pos := "", 0, 0 // the hidden element being skipped
 	for {
 		tt := z.Next()
+		at := pos
+		pos += len(z.Raw())
+		if tt == html.StartTagToken || tt == html.SelfClosingTagToken || tt == html.EndTagToken {
+			if hide != "" {
+				if n, end := rawTagName(z.Raw()); n == hide && tt != html.SelfClosingTagToken {
+					depth = nestDepth(depth, end)
+					if depth == 0 {
+						hide = ""
+					}
+				}
+				continue
+			}
+			if n, r, ok := htmlTagHides(z.Raw()); ok && skip == 0 {
+				hidden = append(hidden, styledHidden{reason: r, start: at})
+				if tt == html.StartTagToken && !htmlVoidName(n) {
+					hide, depth = n, 1
+				}
+				continue
+			}
+		}
 		switch tt {
 		case html.ErrorToken:
-			return cleanText(b), anchor
+			return cleanText(b), anchor, hidden
 		case html.TextToken:
-			if skip == 0 {
+			if skip == 0 && hide == "" {
 				b = append(b, z.Text()...)
 			}
 		case html.StartTagToken, html.SelfClosingTagToken, html.EndTagToken:

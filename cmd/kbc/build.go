@@ -47,6 +47,7 @@ type sourceFlags struct {
 	maxStale         string
 	maxUnknown       string
 	failOnDivergent  bool
+	failOnSecrets    bool
 }
 
 func addSourceFlags(fs *flag.FlagSet) *sourceFlags {
@@ -61,6 +62,7 @@ func addSourceFlags(fs *flag.FlagSet) *sourceFlags {
 	fs.StringVar(&sf.maxStale, "max-stale", "", "gate: exit 3 when more than N documents (or N% of them) are stale or expired")
 	fs.StringVar(&sf.maxUnknown, "max-unknown", "", "gate: exit 3 when more than N documents (or N% of them) have no usable date")
 	fs.BoolVar(&sf.failOnDivergent, "fail-on-divergent", false, "gate: exit 3 when copies of a passage differ in numbers, versions, dates or units")
+	fs.BoolVar(&sf.failOnSecrets, "fail-on-secrets", false, "gate: exit 3 when a credential was found in the sources (see reports/secrets.md)")
 	return sf
 }
 
@@ -79,8 +81,8 @@ func (sf *sourceFlags) skipOutput(src, out string) string {
 
 // gates are the quality gates of one run.
 type gates struct {
-	stale, unknown docLimit
-	divergent      bool
+	stale, unknown     docLimit
+	divergent, secrets bool
 }
 
 // options builds the pipeline options for src: defaults, then the config
@@ -139,17 +141,22 @@ func (sf *sourceFlags) options(src string) (build.Options, gates, error) {
 	if !set["fail-on-divergent"] && cfg.Gates.FailOnDivergent != nil {
 		g.divergent = *cfg.Gates.FailOnDivergent
 	}
+	g.secrets = sf.failOnSecrets
+	if !set["fail-on-secrets"] && cfg.Gates.FailOnSecrets != nil {
+		g.secrets = *cfg.Gates.FailOnSecrets
+	}
 	return opts, g, nil
 }
 
 // check runs the gates over a build's reports; it prints one line per
 // failed gate and returns exitGate, or exitOK.
-func (g gates) check(st *build.StalenessReport, divergent int, stderr io.Writer) int {
+func (g gates) check(st *build.StalenessReport, divergent, secrets int, stderr io.Writer) int {
 	code := exitOK
 	for _, msg := range []string{
 		g.stale.check(st.Counts.StaleOrExpired(), st.Counts.Total),
 		g.unknown.check(st.Counts.Unknown, st.Counts.Total),
 		checkDivergent(g.divergent, divergent),
+		checkSecrets(g.secrets, secrets),
 	} {
 		if msg != "" {
 			fmt.Fprintf(stderr, "kbc: %s\n", msg)
@@ -289,6 +296,7 @@ func writeBundle(sess *session, src string, res *build.Result, opts build.Option
 			"documents": st.Documents, "empty_documents": st.Empty, "skipped": st.Skipped,
 			"warnings": st.Warnings, "boilerplate_dropped": st.BoilerplateDropped,
 			"duplicates_removed": st.Duplicates, "divergent_copies": st.Divergent, "stale_documents": st.Stale,
+			"secrets_redacted": st.Secrets, "hidden_dropped": st.Hidden, "assistant_lints": st.Lints,
 		},
 		Files:   files,
 		Catalog: true,
@@ -410,7 +418,7 @@ func runBuild(args []string, stdout, stderr io.Writer) int {
 	} else {
 		sum.print(stdout)
 	}
-	return g.check(res.Staleness, res.Stats.Divergent, stderr)
+	return g.check(res.Staleness, res.Stats.Divergent, res.Stats.Secrets, stderr)
 }
 
 // upToDate reports whether the bundle in out was built from exactly these
@@ -439,7 +447,7 @@ func upToDate(out, src, inputs string, walked []sources.File, g gates, asJSON bo
 	if json.Unmarshal(st.Summary, &sum) != nil {
 		return 0, false
 	}
-	stale, divergent, err := readReports(out)
+	stale, divergent, secrets, err := readReports(out)
 	if err != nil {
 		return 0, false
 	}
@@ -461,7 +469,7 @@ func upToDate(out, src, inputs string, walked []sources.File, g gates, asJSON bo
 	} else {
 		sum.print(stdout)
 	}
-	return g.check(stale, divergent, stderr), true
+	return g.check(stale, divergent, secrets, stderr), true
 }
 
 // reportFiles renders a build's reports as bundle files.
@@ -470,12 +478,15 @@ func reportFiles(res *build.Result) (map[string][]byte, error) {
 		bundle.StalenessMarkdown: bundle.RenderStaleness(res.Staleness),
 		bundle.DuplicatesMD:      bundle.RenderDuplicates(res.Duplicates),
 		bundle.BoilerplateMD:     bundle.RenderBoilerplate(res.Boilerplate),
+		bundle.SecretsMD:         bundle.RenderSecrets(res.Secrets),
+		bundle.HiddenMD:          bundle.RenderHidden(res.Hidden),
 	}
 	boiler := res.Boilerplate
 	if boiler == nil {
 		boiler = []build.BoilerplateEntry{}
 	}
-	for name, v := range map[string]any{bundle.StalenessJSON: res.Staleness, bundle.DuplicatesJSON: res.Duplicates, bundle.BoilerplateJSON: boiler} {
+	for name, v := range map[string]any{bundle.StalenessJSON: res.Staleness, bundle.DuplicatesJSON: res.Duplicates, bundle.BoilerplateJSON: boiler,
+		bundle.SecretsJSON: res.Secrets, bundle.HiddenJSON: res.Hidden} {
 		data, err := bundle.MarshalReport(v)
 		if err != nil {
 			return nil, fmt.Errorf("%s: %v", name, err)
@@ -533,6 +544,9 @@ func (s summary) print(w io.Writer) {
 	fmt.Fprintf(w, "\n  boilerplate  %d blocks dropped (%d distinct texts)\n", st.BoilerplateDropped, s.BoilerplateTexts)
 	c := s.Staleness
 	fmt.Fprintf(w, "  freshness    %d fresh, %d due soon, %d stale, %d expired\n", c.Fresh, c.DueSoon, c.Stale, c.Expired)
+	if st.Secrets > 0 || st.Hidden > 0 || st.Lints > 0 {
+		fmt.Fprintf(w, "  safety       %d secrets redacted, %d hidden characters or elements dropped, %d lints (reports/secrets.md, reports/hidden.md)\n", st.Secrets, st.Hidden, st.Lints)
+	}
 	fmt.Fprintf(w, "  warnings     %d\n", st.Warnings)
 	fmt.Fprintf(w, "  bundle id    %s\n", s.BundleID)
 	fmt.Fprintf(w, "  delta        %d added, %d changed, %d removed\n", s.Added, s.Changed, s.Removed)

@@ -89,7 +89,8 @@ func TestExampleGolden(t *testing.T) {
 		"passages.jsonl": mustRead(t, filepath.Join(out, "passages.jsonl")),
 		"manifest.json":  stableManifest(t, out),
 	}
-	for _, r := range []string{bundle.StalenessJSON, bundle.StalenessMarkdown, bundle.DuplicatesJSON, bundle.DuplicatesMD, bundle.BoilerplateJSON, bundle.BoilerplateMD} {
+	for _, r := range []string{bundle.StalenessJSON, bundle.StalenessMarkdown, bundle.DuplicatesJSON, bundle.DuplicatesMD, bundle.BoilerplateJSON, bundle.BoilerplateMD,
+		bundle.SecretsJSON, bundle.SecretsMD, bundle.HiddenJSON, bundle.HiddenMD} {
 		files[r] = mustRead(t, filepath.Join(out, filepath.FromSlash(r)))
 	}
 	for name, got := range files {

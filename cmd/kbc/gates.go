@@ -80,3 +80,12 @@ func checkDivergent(on bool, pairs int) string {
 	}
 	return fmt.Sprintf("gate fail-on-divergent failed: %d near-duplicate pair(s) differ in numbers, versions, dates or units", pairs)
 }
+
+// checkSecrets returns a one-line failure when the secrets gate is on and
+// any credential was found.
+func checkSecrets(on bool, found int) string {
+	if !on || found == 0 {
+		return ""
+	}
+	return fmt.Sprintf("gate fail-on-secrets failed: %d credential(s) found in the sources and redacted (see reports/secrets.md); rotate them", found)
+}

@@ -2,8 +2,10 @@ package main
 
 import (
 	"encoding/json"
+	"errors"
 	"fmt"
 	"io"
+	"io/fs"
 	"os"
 	"path/filepath"
 	"time"
@@ -34,10 +36,10 @@ func runStale(args []string, stdout, stderr io.Writer) int {
 		return badUsage(fs, stderr, "%v", err)
 	}
 	var st *build.StalenessReport
-	var divergent int
+	var divergent, secrets int
 	var g gates
 	if _, err := os.Stat(filepath.Join(pos[0], bundle.ManifestFile)); err == nil {
-		st, divergent, err = readReports(pos[0])
+		st, divergent, secrets, err = readReports(pos[0])
 		if err != nil {
 			fmt.Fprintf(stderr, "kbc stale: %v\n", err)
 			return exitFailure
@@ -49,7 +51,11 @@ func runStale(args []string, stdout, stderr io.Writer) int {
 		if g.unknown, err = parseUnknownLimit(sf.maxUnknown); err != nil {
 			return badUsage(fs, stderr, "%v", err)
 		}
-		g.divergent = sf.failOnDivergent
+		g.divergent, g.secrets = sf.failOnDivergent, sf.failOnSecrets
+		if g.secrets && secrets < 0 {
+			fmt.Fprintf(stderr, "kbc stale: bundle %s has no %s (built by an older kbc): rebuild it to check for secrets\n", pos[0], bundle.SecretsJSON)
+			return exitFailure
+		}
 	} else {
 		ctx, stop := interrupted()
 		defer stop()
@@ -58,7 +64,7 @@ func runStale(args []string, stdout, stderr io.Writer) int {
 			return code
 		}
 		printProblems(res, stderr)
-		st, divergent, g = res.Staleness, res.Stats.Divergent, gg
+		st, divergent, secrets, g = res.Staleness, res.Stats.Divergent, res.Stats.Secrets, gg
 	}
 	if *asJSON {
 		data, err := bundle.MarshalReport(st)
@@ -73,22 +79,31 @@ func runStale(args []string, stdout, stderr io.Writer) int {
 			fmt.Fprintf(stdout, "\n%d near-duplicate pair(s) differ in numbers, versions, dates or units: see the duplicate report.\n", divergent)
 		}
 	}
-	return g.check(st, divergent, stderr)
+	return g.check(st, divergent, secrets, stderr)
 }
 
 // readReports reads a bundle's staleness report and counts its divergent
-// copies.
-func readReports(dir string) (*build.StalenessReport, int, error) {
+// copies and the credentials its build found.
+func readReports(dir string) (*build.StalenessReport, int, int, error) {
 	var st build.StalenessReport
 	var dup build.DuplicateReport
-	for name, v := range map[string]any{bundle.StalenessJSON: &st, bundle.DuplicatesJSON: &dup} {
+	var sec build.SecretsReport
+	secrets := sec.Total
+	for name, v := range map[string]any{bundle.StalenessJSON: &st, bundle.DuplicatesJSON: &dup, bundle.SecretsJSON: &sec} {
 		data, err := os.ReadFile(filepath.Join(dir, filepath.FromSlash(name)))
+		if name == bundle.SecretsJSON && errors.Is(err, fs.ErrNotExist) {
+			secrets = -1 // a bundle from before the secrets report
+			continue
+		}
 		if err != nil {
-			return nil, 0, fmt.Errorf("bundle %s has no %s (built by an older kbc?): %v", dir, name, unwrapPathErr(err))
+			return nil, 0, 0, fmt.Errorf("bundle %s has no %s (built by an older kbc?): %v", dir, name, unwrapPathErr(err))
 		}
 		if err := json.Unmarshal(data, v); err != nil {
-			return nil, 0, fmt.Errorf("%s: %v", filepath.Join(dir, name), err)
+			return nil, 0, 0, fmt.Errorf("%s: %v", filepath.Join(dir, name), err)
 		}
 	}
-	return &st, len(dup.Divergent), nil
+	if secrets >= 0 {
+		secrets = sec.Total
+	}
+	return &st, len(dup.Divergent), secrets, nil
 }
