@@ -116,7 +116,7 @@ func (e *embedder) runBatch(ctx context.Context, b, n int, recs []*record, keep 
 		msg := err.Error()
 		var exit *exec.ExitError
 		if errors.As(err, &exit) {
-			msg = "the command " + exit.ProcessState.String()
+			msg = "the command ended with " + exit.ProcessState.String()
 		}
 		if last := errOut.lastLine(); last != "" {
 			msg += ": " + last

@@ -152,7 +152,7 @@ func newDB(t testing.TB) string {
 		t.Fatal(err)
 	}
 	defer c.Close(ctx)
-	if _, err := c.Exec(ctx, "CREATE DATABASE "+name); err != nil {
+	if _, err := c.Exec(ctx, "CREATE DATABASE "+name+" STRATEGY FILE_COPY"); err != nil {
 		t.Fatal(err)
 	}
 	return connString(name)
@@ -294,6 +294,8 @@ func fakeEmbedder(mode string) int {
 			continue
 		case mode == "wrongdim" && n == 2:
 			v = v[:3]
+		case mode == "dim5":
+			v = append(v, 0.5)
 		}
 		b, _ := json.Marshal(embedOutput{ID: in.ID, Vector: v})
 		out.Write(append(b, '\n'))

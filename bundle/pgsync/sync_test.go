@@ -102,6 +102,7 @@ func rowVersions(t testing.TB, conn string) map[string]string {
 // TestSyncSequence covers a bundle's life: first sync, a one-page edit, a
 // date-only rebuild (empty delta), a removal, and the same bundle again.
 func TestSyncSequence(t *testing.T) {
+	t.Parallel()
 	conn := newDB(t)
 	dir := filepath.Join(t.TempDir(), "out")
 	pages := handbook(12)
@@ -200,6 +201,7 @@ func readDelta(t testing.TB, dir string) *bundle.Delta {
 // one: rows are compared by id and record hash, and only the difference
 // is written.
 func TestReconcile(t *testing.T) {
+	t.Parallel()
 	conn := newDB(t)
 	a := filepath.Join(t.TempDir(), "a")
 	pages := handbook(10)
@@ -231,6 +233,7 @@ func TestReconcile(t *testing.T) {
 // TestFullText checks the generated tsvector column and the README's
 // serving query: full-text search filtered by audience and freshness.
 func TestFullText(t *testing.T) {
+	t.Parallel()
 	conn := newDB(t)
 	dir := filepath.Join(t.TempDir(), "out")
 	pages := handbook(6)
@@ -278,6 +281,7 @@ LIMIT 10`
 // TestConcurrent runs a second sync while a first holds the lock: without
 // a wait it fails with ErrBusy; with one it runs after the first.
 func TestConcurrent(t *testing.T) {
+	t.Parallel()
 	conn := newDB(t)
 	a := filepath.Join(t.TempDir(), "a")
 	writeBundle(t, a, handbook(5))
@@ -320,6 +324,7 @@ func TestConcurrent(t *testing.T) {
 // session just before it commits: the sync fails, the database still
 // holds the previous bundle, and running it again finishes the job.
 func TestConnectionDropped(t *testing.T) {
+	t.Parallel()
 	conn := newDB(t)
 	dir := filepath.Join(t.TempDir(), "out")
 	pages := handbook(10)
@@ -355,6 +360,7 @@ func TestConnectionDropped(t *testing.T) {
 // TestProcessKilled kills a sync process (SIGKILL) while it waits for its
 // embedding command inside the transaction.
 func TestProcessKilled(t *testing.T) {
+	t.Parallel()
 	conn := newDB(t)
 	dir := filepath.Join(t.TempDir(), "out")
 	pages := handbook(6)
@@ -395,6 +401,7 @@ func TestProcessKilled(t *testing.T) {
 // TestSchemaVersion refuses a schema made by a newer kbc and keeps two
 // schemas of one database apart.
 func TestSchemaVersion(t *testing.T) {
+	t.Parallel()
 	conn := newDB(t)
 	dir := filepath.Join(t.TempDir(), "out")
 	writeBundle(t, dir, handbook(3))
@@ -418,6 +425,7 @@ func TestSchemaVersion(t *testing.T) {
 // TestNoPasswordInErrors checks that a failing sync's message does not
 // hold the connection string's password.
 func TestNoPasswordInErrors(t *testing.T) {
+	t.Parallel()
 	needServer(t)
 	dir := filepath.Join(t.TempDir(), "out")
 	writeBundle(t, dir, handbook(2))
