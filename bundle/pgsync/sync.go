@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"hash/fnv"
 	"slices"
+	"strings"
 	"time"
 
 	"github.com/jackc/pgx/v5"
@@ -44,26 +45,27 @@ type Options struct {
 	beforeCommit func()
 }
 
-// Result says what a Sync did.
+// Result says what a Sync did. It marshals to the JSON that kbc sync
+// --json prints.
 type Result struct {
-	Database string // the connection string with credentials redacted
-	Schema   string
-	BundleID string
-	Previous string // the bundle the database held before; empty for a first sync
+	Database string `json:"database"` // user, host, port and database; never the password
+	Schema   string `json:"schema"`
+	BundleID string `json:"bundle_id"`
+	Previous string `json:"previous,omitempty"` // the bundle the database held before; empty for a first sync
 	// Mode is "first" (an empty database), "delta" (the database held
 	// the bundle that the bundle's delta.json was made against, and the
 	// delta agreed with it), "reconcile" (any other bundle: rows compared
 	// by id and record hash) or "unchanged" (the database already held
-	// this bundle, row for row; nothing was written).
-	Mode     string
-	Passages int  // passages in the bundle
-	Added    int  // rows inserted
-	Changed  int  // rows rewritten: any field differed
-	Removed  int  // rows deleted
-	Embedded int  // passages sent to the embedding command
-	Vectors  int  // passages of the bundle that have a vector after the sync
-	Migrated bool // the tables were created or migrated
-	Elapsed  time.Duration
+	// this bundle, row for row; no row was written).
+	Mode     string        `json:"mode"`
+	Passages int           `json:"passages"` // passages in the bundle
+	Added    int           `json:"added"`    // rows inserted
+	Changed  int           `json:"changed"`  // rows rewritten: some field differed
+	Removed  int           `json:"removed"`  // rows deleted
+	Embedded int           `json:"embedded"` // passages sent to the embedding command
+	Vectors  int           `json:"vectors"`  // passages of the bundle with a vector after the sync
+	Migrated bool          `json:"migrated"` // the tables were created or migrated
+	Elapsed  time.Duration `json:"-"`
 }
 
 // Sync brings the database that conn names to exactly the passages of the
@@ -113,7 +115,17 @@ func syncBundle(ctx context.Context, dir, conn string, opts Options, red store.R
 	res := &Result{Database: describe(cfg, conn, red), Schema: schema, BundleID: src.manifest.BundleID, Passages: len(src.records)}
 	db, err := pgx.ConnectConfig(ctx, cfg)
 	if err != nil {
-		return nil, fmt.Errorf("connecting to %s: %w", res.Database, err)
+		// pgx lists each address it tried on a line of its own; a
+		// kbc message stays on one line.
+		lines := strings.Split(err.Error(), "\n")
+		for i := range lines {
+			lines[i] = strings.TrimSpace(lines[i])
+		}
+		msg := lines[0]
+		if len(lines) > 1 {
+			msg += " " + strings.Join(lines[1:], "; ")
+		}
+		return nil, fmt.Errorf("connecting to %s: %s", res.Database, msg)
 	}
 	defer db.Close(context.Background())
 
@@ -146,11 +158,15 @@ func syncBundle(ctx context.Context, dir, conn string, opts Options, red store.R
 // describe names the database for messages: user, host, port and
 // database, never the password.
 func describe(cfg *pgx.ConnConfig, conn string, red store.Redactor) string {
+	db := cfg.Database
+	if db == "" {
+		db = cfg.User // the server's default, as in libpq
+	}
 	host := cfg.Host
 	if len(host) > 0 && host[0] == '/' {
 		host = "socket " + host
 	}
-	return red.Text(fmt.Sprintf("database %s on %s:%d as %s", cfg.Database, host, cfg.Port, cfg.User))
+	return red.Text(fmt.Sprintf("database %s on %s:%d as %s", db, host, cfg.Port, cfg.User))
 }
 
 // lock takes the advisory lock of schema for the transaction; it is
