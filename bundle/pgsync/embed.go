@@ -89,7 +89,7 @@ func (e *embedder) runBatch(ctx context.Context, b, n int, recs []*record, keep 
 		if err := enc.Encode(embedInput{ID: r.p.ID, Hash: r.p.Hash, Text: r.p.Text, Title: r.p.Title, Heading: heading}); err != nil {
 			return fail(r.loc(), "%v", err)
 		}
-		byID[r.p.ID] = r
+		byID[r.id] = r
 	}
 
 	cctx, cancel := context.WithTimeout(ctx, e.timeout)
@@ -156,14 +156,14 @@ func (e *embedder) runBatch(ctx context.Context, b, n int, recs []*record, keep 
 				return fail(r.loc(), "output line %d: vector holds a value out of range", i+1)
 			}
 		}
-		if err := keep(r.p.Hash, o.Vector); err != nil {
+		if err := keep(r.textHash, o.Vector); err != nil {
 			return err
 		}
 	}
 	if len(got) != len(recs) {
 		var missing []string
 		for _, r := range recs {
-			if !got[r.p.ID] {
+			if !got[r.id] {
 				missing = append(missing, r.loc())
 			}
 		}

@@ -15,6 +15,7 @@ import (
 	"path/filepath"
 	"strconv"
 	"strings"
+	"sync"
 	"sync/atomic"
 	"testing"
 	"time"
@@ -36,7 +37,11 @@ var cluster struct {
 	runAs      []string // prefix that runs a server binary as the cluster's owner
 }
 
-var dbSeq atomic.Int64
+var (
+	dbSeq       atomic.Int64
+	clusterOnce sync.Once
+	clusterStop func()
+)
 
 func TestMain(m *testing.M) {
 	switch os.Getenv("KBC_TEST_EMBEDDER") {
@@ -53,9 +58,10 @@ func TestMain(m *testing.M) {
 		}
 		os.Exit(0)
 	}
-	stop := startCluster()
 	code := m.Run()
-	stop()
+	if clusterStop != nil {
+		clusterStop()
+	}
 	os.Exit(code)
 }
 
@@ -127,6 +133,9 @@ func startCluster() func() {
 // KBC_REQUIRE_SERVERS=1.
 func needServer(t testing.TB) {
 	t.Helper()
+	// Started on first use, so that tests and fuzz workers that need no
+	// server start none.
+	clusterOnce.Do(func() { clusterStop = startCluster() })
 	if cluster.skip == "" {
 		return
 	}

@@ -31,8 +31,12 @@ CREATE FUNCTION %[1]s.trail(text[]) RETURNS text
 	LANGUAGE sql IMMUTABLE PARALLEL SAFE
 	AS $$ SELECT coalesce(array_to_string($1, ' '), '') $$;
 
+-- id, record_hash and hash come first: a sync reads them from every row,
+-- and PostgreSQL then stops decoding each row after them.
 CREATE TABLE %[1]s.passages (
 	id             text PRIMARY KEY,
+	record_hash    text NOT NULL,
+	hash           text NOT NULL,
 	path           text NOT NULL,
 	anchor         text,
 	title          text NOT NULL,
@@ -41,7 +45,6 @@ CREATE TABLE %[1]s.passages (
 	line           integer NOT NULL,
 	end_line       integer NOT NULL,
 	tokens         integer NOT NULL,
-	hash           text NOT NULL,
 	split          boolean NOT NULL,
 	updated        timestamptz,
 	updated_source text,
@@ -53,7 +56,6 @@ CREATE TABLE %[1]s.passages (
 	also_at        text[] NOT NULL,
 	terms          text[] NOT NULL,
 	term_anchors   text[] NOT NULL,
-	record_hash    text NOT NULL,
 	tsv            tsvector GENERATED ALWAYS AS (
 		setweight(to_tsvector('english'::regconfig, title), 'A') ||
 		setweight(to_tsvector('english'::regconfig, %[1]s.trail(heading) || ' ' || %[1]s.trail(terms)), 'B') ||

@@ -63,7 +63,7 @@ type Result struct {
 	Changed  int           `json:"changed"`  // rows rewritten: some field differed
 	Removed  int           `json:"removed"`  // rows deleted
 	Embedded int           `json:"embedded"` // passages sent to the embedding command
-	Vectors  int           `json:"vectors"`  // passages of the bundle with a vector after the sync
+	Vectors  int           `json:"vectors"`  // with an embedding command: passages of the bundle that have a vector after the sync
 	Migrated bool          `json:"migrated"` // the tables were created or migrated
 	Elapsed  time.Duration `json:"-"`
 }
@@ -104,7 +104,7 @@ func syncBundle(ctx context.Context, dir, conn string, opts Options, red store.R
 			em.timeout = DefaultEmbedTimeout
 		}
 	}
-	src, err := readBundle(dir)
+	src, err := readSource(dir)
 	if err != nil {
 		return nil, err
 	}
@@ -112,7 +112,7 @@ func syncBundle(ctx context.Context, dir, conn string, opts Options, red store.R
 	if err != nil {
 		return nil, fmt.Errorf("connection string: %w", err)
 	}
-	res := &Result{Database: describe(cfg, conn, red), Schema: schema, BundleID: src.manifest.BundleID, Passages: len(src.records)}
+	res := &Result{Database: describe(cfg, conn, red), Schema: schema, BundleID: src.manifest.BundleID, Passages: src.manifest.Counts["passages"]}
 	db, err := pgx.ConnectConfig(ctx, cfg)
 	if err != nil {
 		// pgx lists each address it tried on a line of its own; a
@@ -219,6 +219,16 @@ func (s *syncer) apply(ctx context.Context, em *embedder) error {
 	if prev != nil {
 		s.res.Previous = *prev
 	}
+	if s.res.Previous == s.res.BundleID && em == nil {
+		// Every sync commits whole or not at all, so the rows are
+		// this bundle's: nothing to read or write.
+		s.res.Mode = "unchanged"
+		return nil
+	}
+	if err := s.src.readPassages(); err != nil {
+		return err
+	}
+	s.res.Passages = len(s.src.records)
 
 	// What the database holds: every row's id and record hash.
 	have := make(map[string]string)
@@ -238,8 +248,8 @@ func (s *syncer) apply(ctx context.Context, em *embedder) error {
 	inBundle := make(map[string]bool, len(s.src.records))
 	for i := range s.src.records {
 		r := &s.src.records[i]
-		inBundle[r.p.ID] = true
-		old, ok := have[r.p.ID]
+		inBundle[r.id] = true
+		old, ok := have[r.id]
 		switch {
 		case !ok:
 			write = append(write, r)
@@ -257,6 +267,11 @@ func (s *syncer) apply(ctx context.Context, em *embedder) error {
 	slices.Sort(removed)
 	s.res.Removed = len(removed)
 	s.res.Mode = s.mode(have, inBundle)
+	for _, r := range write {
+		if err := r.decode(s.src.passagesPath()); err != nil {
+			return err
+		}
+	}
 
 	// Vectors first: a failing command stops the sync before any row is
 	// written (and the rollback would undo them anyway).
@@ -270,8 +285,8 @@ func (s *syncer) apply(ctx context.Context, em *embedder) error {
 	// Rows: delete what goes or changes, then COPY what comes.
 	var del []string
 	for _, r := range write {
-		if _, ok := have[r.p.ID]; ok {
-			del = append(del, r.p.ID)
+		if _, ok := have[r.id]; ok {
+			del = append(del, r.id)
 		}
 	}
 	del = append(del, removed...)
@@ -351,7 +366,7 @@ func (s *syncer) copyPassages(ctx context.Context, recs []*record) error {
 		"updated", "updated_source", "reviewed", "review_by", "expires", "owner", "audience", "also_at", "terms", "term_anchors", "record_hash"}
 	n, err := s.tx.CopyFrom(ctx, pgx.Identifier{s.name, "passages"}, cols, pgx.CopyFromSlice(len(recs), func(i int) ([]any, error) {
 		r := recs[i]
-		p := &r.p
+		p := r.p
 		terms, anchors := make([]string, len(p.Terms)), make([]string, len(p.Terms))
 		for j, t := range p.Terms {
 			terms[j], anchors[j] = t.Text, t.Anchor
@@ -373,12 +388,15 @@ func (s *syncer) copyPassages(ctx context.Context, recs []*record) error {
 // what comes back, keyed by text hash; a vector is reused by every
 // passage with the same text, whatever its id.
 func (s *syncer) embed(ctx context.Context, em *embedder) error {
+	if em == nil {
+		return nil
+	}
 	var hashes []string
 	seen := make(map[string]bool)
 	for _, r := range s.src.records {
-		if !seen[r.p.Hash] {
-			seen[r.p.Hash] = true
-			hashes = append(hashes, r.p.Hash)
+		if !seen[r.textHash] {
+			seen[r.textHash] = true
+			hashes = append(hashes, r.textHash)
 		}
 	}
 	stored := make(map[string]bool)
@@ -389,21 +407,20 @@ func (s *syncer) embed(ctx context.Context, em *embedder) error {
 	}
 	count := func() {
 		for _, r := range s.src.records {
-			if stored[r.p.Hash] {
+			if stored[r.textHash] {
 				s.res.Vectors++
 			}
 		}
-	}
-	if em == nil {
-		count()
-		return nil
 	}
 	var need []*record
 	queued := make(map[string]bool)
 	for i := range s.src.records {
 		r := &s.src.records[i]
-		if !stored[r.p.Hash] && !queued[r.p.Hash] {
-			queued[r.p.Hash] = true
+		if !stored[r.textHash] && !queued[r.textHash] {
+			queued[r.textHash] = true
+			if err := r.decode(s.src.passagesPath()); err != nil {
+				return err
+			}
 			need = append(need, r)
 		}
 	}

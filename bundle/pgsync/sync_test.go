@@ -190,7 +190,7 @@ func maps_equal(a, b map[string]string) bool {
 
 func readDelta(t testing.TB, dir string) *bundle.Delta {
 	t.Helper()
-	src, err := readBundle(dir)
+	src, err := readSource(dir)
 	if err != nil {
 		t.Fatal(err)
 	}
