@@ -295,8 +295,26 @@ func (s *syncer) apply(ctx context.Context, em *embedder) error {
 			return fmt.Errorf("deleting %d rows: %w", len(del), err)
 		}
 	}
+	// Into an empty table, the full-text index is built once after the
+	// load rather than entry by entry during it (PostgreSQL manual, 14.4.3
+	// "Remove Indexes"); no reader sees the table without it, as the
+	// index commits with the rows.
+	rebuild := len(have) == 0 && len(write) > 1000
+	if rebuild {
+		if _, err := s.tx.Exec(ctx, "DROP INDEX "+s.q+".passages_tsv"); err != nil {
+			return fmt.Errorf("dropping the full-text index for the load: %w", err)
+		}
+	}
 	if err := s.copyPassages(ctx, write); err != nil {
 		return err
+	}
+	if rebuild {
+		if _, err := s.tx.Exec(ctx, "SET LOCAL maintenance_work_mem = '256MB'"); err != nil {
+			return err
+		}
+		if _, err := s.tx.Exec(ctx, "CREATE INDEX passages_tsv ON "+s.q+".passages USING gin (tsv)"); err != nil {
+			return fmt.Errorf("building the full-text index: %w", err)
+		}
 	}
 	if len(del) > 0 {
 		// Forget vectors no passage uses any more.
