@@ -236,7 +236,7 @@ func TestFullText(t *testing.T) {
 	t.Parallel()
 	conn := newDB(t)
 	dir := filepath.Join(t.TempDir(), "out")
-	pages := handbook(6)
+	pages := handbook(1200) // over the size at which the index is built after the load
 	pages[2].text = "Hazmat placards must be checked by a certified driver before departure."
 	pages[2].audience = "drivers"
 	pages[4].text = "Hazmat storage in the depot follows the yard plan."
