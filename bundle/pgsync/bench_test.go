@@ -149,3 +149,61 @@ func BenchmarkSyncUnchanged(b *testing.B) {
 		})
 	}
 }
+
+// BenchmarkCopyRows loads every passage of each bundle with COPY into a
+// table with the passages table's columns but no generated tsvector and no
+// index: the COPY protocol's own rate, apart from what the server spends
+// on full-text vectors and indexes (BenchmarkSyncFirst has those).
+func BenchmarkCopyRows(b *testing.B) {
+	ctx := context.Background()
+	for name, dir := range benchBundles(b) {
+		b.Run(name, func(b *testing.B) {
+			conn := benchDB(b)
+			if _, err := Sync(ctx, dir, conn, Options{}); err != nil {
+				b.Fatal(err)
+			}
+			src, err := readSource(dir)
+			if err != nil {
+				b.Fatal(err)
+			}
+			if err := src.readPassages(); err != nil {
+				b.Fatal(err)
+			}
+			recs := make([]*record, len(src.records))
+			for i := range src.records {
+				recs[i] = &src.records[i]
+				if err := recs[i].decode(src.passagesPath()); err != nil {
+					b.Fatal(err)
+				}
+			}
+			c, err := pgx.Connect(ctx, conn)
+			if err != nil {
+				b.Fatal(err)
+			}
+			defer c.Close(ctx)
+			for b.Loop() {
+				tx, err := c.Begin(ctx)
+				if err != nil {
+					b.Fatal(err)
+				}
+				if _, err := tx.Exec(ctx, "CREATE TABLE kbc.plain (LIKE kbc.passages)"); err != nil {
+					b.Fatal(err)
+				}
+				if _, err := tx.Exec(ctx, "ALTER TABLE kbc.plain DROP COLUMN tsv"); err != nil {
+					b.Fatal(err)
+				}
+				s := &syncer{tx: tx, name: "kbc", q: `"kbc"`}
+				if err := s.copyInto(ctx, "plain", recs); err != nil {
+					b.Fatal(err)
+				}
+				if err := tx.Commit(ctx); err != nil {
+					b.Fatal(err)
+				}
+				b.StopTimer()
+				c.Exec(ctx, "DROP TABLE kbc.plain")
+				b.StartTimer()
+			}
+			b.ReportMetric(float64(len(recs))*float64(b.N)/b.Elapsed().Seconds(), "rows/s")
+		})
+	}
+}

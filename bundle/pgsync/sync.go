@@ -377,12 +377,17 @@ func (s *syncer) mode(have map[string]string, inBundle map[string]bool) string {
 
 // copyPassages loads recs with the COPY protocol.
 func (s *syncer) copyPassages(ctx context.Context, recs []*record) error {
+	return s.copyInto(ctx, "passages", recs)
+}
+
+// copyInto loads recs into table, which has the passages table's columns.
+func (s *syncer) copyInto(ctx context.Context, table string, recs []*record) error {
 	if len(recs) == 0 {
 		return nil
 	}
 	cols := []string{"id", "path", "anchor", "title", "heading", "text", "line", "end_line", "tokens", "hash", "split",
 		"updated", "updated_source", "reviewed", "review_by", "expires", "owner", "audience", "also_at", "terms", "term_anchors", "record_hash"}
-	n, err := s.tx.CopyFrom(ctx, pgx.Identifier{s.name, "passages"}, cols, pgx.CopyFromSlice(len(recs), func(i int) ([]any, error) {
+	n, err := s.tx.CopyFrom(ctx, pgx.Identifier{s.name, table}, cols, pgx.CopyFromSlice(len(recs), func(i int) ([]any, error) {
 		r := recs[i]
 		p := r.p
 		terms, anchors := make([]string, len(p.Terms)), make([]string, len(p.Terms))
