@@ -17,6 +17,7 @@ require (
 	github.com/dlclark/regexp2/v2 v2.5.1
 	github.com/ekzhu/minhash-lsh v0.0.0-20171225071031-5c06ee8586a1
 	github.com/fsnotify/fsnotify v1.10.1
+	github.com/jackc/pgx/v5 v5.13.0
 	github.com/opencontainers/go-digest v1.0.0
 	github.com/opencontainers/image-spec v1.1.1
 	github.com/rogpeppe/go-internal v1.14.1
@@ -75,6 +76,8 @@ require (
 	github.com/google/uuid v1.6.0 // indirect
 	github.com/google/wire v0.7.0 // indirect
 	github.com/googleapis/gax-go/v2 v2.24.1 // indirect
+	github.com/jackc/pgpassfile v1.0.0 // indirect
+	github.com/jackc/pgservicefile v0.0.0-20240606120523-5a60cdf6a761 // indirect
 	github.com/json-iterator/go v0.0.0-20171115153421-f7279a603ede // indirect
 	github.com/kr/text v0.2.0 // indirect
 	github.com/mschoch/smat v0.2.0 // indirect

@@ -9,7 +9,7 @@ import (
 )
 
 func TestRedactor(t *testing.T) {
-	env := map[string]string{"AWS_SECRET_ACCESS_KEY": "env-secret-123", "AWS_SESSION_TOKEN": "sess+tok/en=="}
+	env := map[string]string{"AWS_SECRET_ACCESS_KEY": "env-secret-123", "AWS_SESSION_TOKEN": "sess+tok/en==", "PGPASSWORD": "pgenv-pass-4"}
 	getenv := func(k string) string { return env[k] }
 	tests := []struct {
 		loc, in, want string
@@ -19,6 +19,12 @@ func TestRedactor(t *testing.T) {
 		{"s3://b?x_secret=qs-secret-1&region=r", "url s3://b?x_secret=qs-secret-1&region=r", "url s3://b?x_secret=[redacted]&region=r"},
 		{"dir", "key env-secret-123 and sess%2Btok%2Fen%3D%3D", "key [redacted] and [redacted]"},
 		{"dir", "nothing secret here", "nothing secret here"},
+		// PostgreSQL connections (bundle/pgsync): URL, keyword/value with
+		// a quoted value holding an escaped quote, and PGPASSWORD.
+		{"postgres://app:pg-pass-1@db:5432/kb?sslmode=verify-full", "connect app:pg-pass-1 failed", "connect app:[redacted] failed"},
+		{"host=db user=app password='pg pass\\'2' sslmode=require", "saw pg pass'2 here", "saw [redacted] here"},
+		{"host=db sslpassword=key-pass-3 dbname=kb", "decrypt key-pass-3", "decrypt [redacted]"},
+		{"dbname=kb", "pgenv-pass-4 leaked", "[redacted] leaked"},
 	}
 	for _, tc := range tests {
 		t.Run(tc.loc, func(t *testing.T) {

@@ -17,6 +17,7 @@
 //	kbc pull SRC DIR [--tag NAME | --id ID]
 //	kbc versions STORE [--json]
 //	kbc prune STORE --keep N
+//	kbc sync OUT [DATABASE] [--schema kbc] [--wait DURATION] [--embed-cmd CMD]
 //	kbc version
 //
 // Run "kbc COMMAND --help" for the flags of one command. Exit codes: 0 ok,
@@ -75,6 +76,7 @@ func commands() []command {
 		{"pull", "download and verify a bundle from a store", runPull},
 		{"versions", "list the bundles in a store", runVersions},
 		{"prune", "remove old bundles from a store", runPrune},
+		{"sync", "bring a PostgreSQL database to a bundle's passages", runSync},
 		{"version", "print the version", func(_ []string, stdout, _ io.Writer) int {
 			fmt.Fprintf(stdout, "kbc %s\n", version)
 			return exitOK
