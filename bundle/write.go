@@ -491,6 +491,9 @@ func writeTree(dir string, in *Input) (*Manifest, *catalog, error) {
 		}
 	}
 
+	if err := m.seal(dir); err != nil {
+		return nil, nil, err
+	}
 	data, err := m.marshal()
 	if err != nil {
 		return nil, nil, err
