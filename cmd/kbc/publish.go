@@ -11,6 +11,7 @@ import (
 	"syscall"
 
 	"github.com/kbc-project/kbc/bundle/store"
+	"github.com/kbc-project/kbc/internal/printable"
 )
 
 // storeKinds is the part of every store command's help that names the stores.
@@ -186,7 +187,7 @@ func runVersions(args []string, stdout, stderr io.Writer) int {
 			state = "INCOMPLETE"
 		}
 		fmt.Fprintf(stdout, "%s  %s  commit %-12.12s  %6d passages %8d tokens  %s\n",
-			shortID(v.ID), t, orDash(v.SourceCommit), v.Counts["passages"], v.Counts["tokens"], state)
+			shortID(v.ID), t, printable.Quote(orDash(v.SourceCommit)), v.Counts["passages"], v.Counts["tokens"], state)
 	}
 	return exitOK
 }
