@@ -246,6 +246,48 @@ func syncDir(dir string) error {
 	return nil
 }
 
+// staleObjectAge is how long a temporary object in a folder store must have
+// gone unwritten before a publish removes it as left by a killed one: an
+// upload in progress writes to its file all the time (common practice, no
+// source).
+const staleObjectAge = 10 * time.Minute
+
+// isTempObject reports whether name is a temporary object of a folder
+// store: fileblob's NAME.<hex nanoseconds>.tmp or createOnly's .new-*.
+func isTempObject(name string) bool {
+	if strings.HasPrefix(name, ".new-") {
+		return true
+	}
+	rest, ok := strings.CutSuffix(name, ".tmp")
+	if !ok {
+		return false
+	}
+	i := strings.LastIndexByte(rest, '.')
+	if i < 0 || i == len(rest)-1 {
+		return false
+	}
+	_, err := strconv.ParseUint(rest[i+1:], 16, 64)
+	return err == nil
+}
+
+// sweepTemp removes, in a folder store, the temporary objects that killed
+// publishes left behind (best effort: a store it cannot walk is left as
+// it is).
+func (s *blobStore) sweepTemp() {
+	if s.root == "" {
+		return
+	}
+	filepath.WalkDir(s.root, func(p string, d fs.DirEntry, err error) error {
+		if err != nil || !d.Type().IsRegular() || !isTempObject(d.Name()) {
+			return nil
+		}
+		if fi, err := d.Info(); err == nil && time.Since(fi.ModTime()) > staleObjectAge {
+			os.Remove(p)
+		}
+		return nil
+	})
+}
+
 // bundleFiles returns the files of the bundle m describes, manifest.json
 // first.
 func bundleFiles(m *bundle.Manifest) ([]string, error) {
@@ -273,6 +315,7 @@ func (s *blobStore) putVersion(ctx context.Context, dir string, m *bundle.Manife
 	if !isHexID(m.BundleID) {
 		return fmt.Errorf("invalid bundle id %q", m.BundleID)
 	}
+	s.sweepTemp()
 	base := s.versionKey(m.BundleID)
 	files, err := bundleFiles(m)
 	if err != nil {

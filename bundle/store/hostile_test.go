@@ -258,3 +258,35 @@ func TestPullSweepsStaleTemp(t *testing.T) {
 		}
 	}
 }
+
+// TestPublishSweepsHalfWritten is the regression test for the temporary
+// objects a killed publish leaves in a folder store (fileblob's
+// NAME.<hex>.tmp, our .new-* before link(2)): the next publish removes
+// those not written to for a while and leaves fresh ones, which may be
+// another publisher's.
+func TestPublishSweepsHalfWritten(t *testing.T) {
+	s, root, files := hostileFolder(t)
+	old := time.Now().Add(-time.Hour)
+	staleTmp := filepath.Join(files, "passages.jsonl.18a2b3c4d5e6f708.tmp")
+	staleNew := filepath.Join(root, "pointers", DefaultPointer, ".new-123456")
+	freshTmp := filepath.Join(files, "index", "x.18a2b3c4d5e6f709.tmp")
+	for _, p := range []string{staleTmp, staleNew, freshTmp} {
+		if err := os.WriteFile(p, []byte("half"), 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	os.Chtimes(staleTmp, old, old)
+	os.Chtimes(staleNew, old, old)
+	v, _ := mkBundle(t, 5, 2)
+	if _, err := s.Publish(context.Background(), v, PublishOptions{}); err != nil {
+		t.Fatal(err)
+	}
+	for _, p := range []string{staleTmp, staleNew} {
+		if _, err := os.Stat(p); !errors.Is(err, os.ErrNotExist) {
+			t.Errorf("%s still there: %v", filepath.Base(p), err)
+		}
+	}
+	if _, err := os.Stat(freshTmp); err != nil {
+		t.Errorf("a fresh temporary object was removed: %v", err)
+	}
+}
