@@ -241,11 +241,15 @@ func TestPullSweepsStaleTemp(t *testing.T) {
 		}
 		os.Chtimes(d, old, old)
 	}
-	unlock, err := lockDir(busy)
+	// Another pull's folder: held with flock(2), as bundle.TempDir does.
+	f, err := os.Open(busy)
 	if err != nil {
 		t.Fatal(err)
 	}
-	defer unlock()
+	defer f.Close()
+	if err := syscall.Flock(int(f.Fd()), syscall.LOCK_EX|syscall.LOCK_NB); err != nil {
+		t.Fatal(err)
+	}
 	if _, err := s.Pull(context.Background(), filepath.Join(parent, "serve"), Ref{}); err != nil {
 		t.Fatal(err)
 	}

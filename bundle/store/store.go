@@ -371,24 +371,18 @@ func (s *Store) pull(ctx context.Context, dir string, ref Ref) (_ *bundle.Manife
 		return nil, fmt.Errorf("version %s: %w in %s (or its upload never finished)", id, ErrNotFound, s.display)
 	}
 	dir = filepath.Clean(dir)
-	prefix := "." + filepath.Base(dir) + ".pull-"
-	sweep(filepath.Dir(dir), prefix)
-	tmp, err := os.MkdirTemp(filepath.Dir(dir), prefix)
+	// Locked while in use, so that the next pull can tell a folder left
+	// by a killed one from a folder another pull is filling.
+	tmp, unlock, err := bundle.TempDir(filepath.Dir(dir), "."+filepath.Base(dir)+".pull-")
 	if err != nil {
 		return nil, err
 	}
+	defer unlock()
 	defer func() {
 		if err != nil {
 			os.RemoveAll(tmp)
 		}
 	}()
-	// Locked while in use, so that the next pull can tell a folder left
-	// by a killed one from a folder another pull is filling.
-	unlock, err := lockDir(tmp)
-	if err != nil {
-		return nil, err
-	}
-	defer unlock()
 	if err := os.Chmod(tmp, 0o755); err != nil {
 		return nil, err
 	}
@@ -416,29 +410,6 @@ func (s *Store) pull(ctx context.Context, dir string, ref Ref) (_ *bundle.Manife
 		return nil, err
 	}
 	return m, nil
-}
-
-// staleAge is how old a pull's temporary folder must be before another
-// pull may remove it (and only when no process holds it locked): a pull
-// that has just made its folder has not locked it yet.
-const staleAge = time.Minute
-
-// sweep removes the temporary folders beside a pull's target, named with
-// prefix, that a pull killed before it could clean up left behind.
-func sweep(parent, prefix string) {
-	ents, err := os.ReadDir(parent)
-	if err != nil {
-		return
-	}
-	for _, e := range ents {
-		if !e.IsDir() || !strings.HasPrefix(e.Name(), prefix) {
-			continue
-		}
-		p := filepath.Join(parent, e.Name())
-		if fi, err := e.Info(); err == nil && time.Since(fi.ModTime()) > staleAge && unused(p) {
-			os.RemoveAll(p)
-		}
-	}
 }
 
 // MismatchError lists the files of a bundle that do not match its manifest.

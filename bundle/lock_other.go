@@ -1,6 +1,6 @@
 //go:build !unix
 
-package store
+package bundle
 
 // lockDir does nothing where there is no flock(2).
 func lockDir(string) (func(), error) { return func() {}, nil }
