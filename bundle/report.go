@@ -9,6 +9,7 @@ import (
 	"time"
 
 	"github.com/kbc-project/kbc/build"
+	"github.com/kbc-project/kbc/internal/printable"
 )
 
 // Report files inside a bundle, each in JSON for machines and Markdown
@@ -47,6 +48,7 @@ func mdCell(s string) string {
 	if s == "" {
 		return "-"
 	}
+	s = printable.Quote(s) // no control character reaches a terminal
 	s = strings.ReplaceAll(s, "|", `\|`)
 	return strings.ReplaceAll(s, "\n", " ")
 }
@@ -79,7 +81,7 @@ func RenderStaleness(r *build.StalenessReport) []byte {
 			owner = "(no owner)"
 		}
 		gc := g.Counts
-		fmt.Fprintf(&b, "\n## %s\n\n%d expired, %d stale, %d due soon, %d fresh, %d unknown\n\n", owner, gc.Expired, gc.Stale, gc.DueSoon, gc.Fresh, gc.Unknown)
+		fmt.Fprintf(&b, "\n## %s\n\n%d expired, %d stale, %d due soon, %d fresh, %d unknown\n\n", printable.Quote(owner), gc.Expired, gc.Stale, gc.DueSoon, gc.Fresh, gc.Unknown)
 		fmt.Fprintf(&b, "| status | document | updated | from | review by | |\n|---|---|---|---|---|---|\n")
 		for _, d := range g.Documents {
 			when := ""

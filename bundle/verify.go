@@ -3,6 +3,7 @@ package bundle
 import (
 	"cmp"
 	"crypto/sha256"
+	"fmt"
 	"io"
 	"io/fs"
 	"os"
@@ -29,8 +30,10 @@ type Mismatch struct {
 // returns the differences, sorted by file: files missing, files changed, and
 // files present but not listed (manifest.json itself aside). It also checks
 // that the manifest's bundle id is the hash of passages.jsonl it lists; if
-// not, it reports manifest.json as changed. An error means the manifest could
-// not be read at all.
+// not, or the sizes and hashes it lists do not give its files digest, it
+// reports manifest.json as changed. A file whose size differs from the one
+// listed is reported changed without being read. An error means the
+// manifest could not be read at all.
 func Verify(dir string) ([]Mismatch, error) {
 	m, err := ReadManifest(dir)
 	if err != nil {
@@ -39,6 +42,11 @@ func Verify(dir string) ([]Mismatch, error) {
 	var out []Mismatch
 	if want := "sha256:" + m.BundleID; m.Files[PassagesFile] != want {
 		out = append(out, Mismatch{File: ManifestFile, Want: want, Got: m.Files[PassagesFile], Problem: Changed})
+	}
+	if m.FilesDigest != "" {
+		if got := FilesDigest(m.Files, m.Sizes); got != m.FilesDigest {
+			out = append(out, Mismatch{File: ManifestFile, Want: m.FilesDigest, Got: got, Problem: Changed})
+		}
 	}
 	seen := make(map[string]bool, len(m.Files))
 	err = filepath.WalkDir(dir, func(p string, d fs.DirEntry, err error) error {
@@ -57,6 +65,15 @@ func Verify(dir string) ([]Mismatch, error) {
 		seen[name] = listed
 		got := "not a regular file"
 		if d.Type().IsRegular() {
+			size, sized := m.Sizes[name]
+			fi, err := d.Info()
+			if err != nil {
+				return err
+			}
+			if listed && sized && fi.Size() != size {
+				out = append(out, Mismatch{File: name, Want: fmt.Sprintf("%d bytes", size), Got: fmt.Sprintf("%d bytes", fi.Size()), Problem: Changed})
+				return nil
+			}
 			if got, err = hashFile(p); err != nil {
 				return err
 			}

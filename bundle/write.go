@@ -70,7 +70,8 @@ type Input struct {
 // of out in one step (see place). Any failure removes the temporary folder
 // and leaves an earlier out untouched. out must not exist, or be an empty
 // folder, or hold a bundle (a manifest.json): Write refuses to replace
-// anything else. A crash can leave a ".<out>.tmp-*" folder behind; nothing
+// anything else. A crash can leave a ".<out>.tmp-*" folder behind (the next
+// Write beside it removes it, see TempDir); nothing
 // reads it, and it may be deleted.
 //
 // Two calls with equal input write byte-identical files (TestDeterministic).
@@ -96,10 +97,11 @@ func write(out string, in *Input, hook func(tmp string) error) (_ *Manifest, err
 		return nil, fmt.Errorf("writing bundle %s: %w", out, err)
 	}
 	parent, base := filepath.Dir(out), filepath.Base(out)
-	tmp, err := os.MkdirTemp(parent, "."+base+".tmp-")
+	tmp, release, err := TempDir(parent, "."+base+".tmp-")
 	if err != nil {
 		return nil, fmt.Errorf("writing bundle %s: cannot create a folder in %s: %w", out, parent, err)
 	}
+	defer release()
 	defer func() {
 		if err != nil {
 			os.RemoveAll(tmp)
@@ -491,6 +493,9 @@ func writeTree(dir string, in *Input) (*Manifest, *catalog, error) {
 		}
 	}
 
+	if err := m.seal(dir); err != nil {
+		return nil, nil, err
+	}
 	data, err := m.marshal()
 	if err != nil {
 		return nil, nil, err

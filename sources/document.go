@@ -5,6 +5,8 @@ import (
 	"fmt"
 	"sort"
 	"time"
+
+	"github.com/kbc-project/kbc/internal/printable"
 )
 
 // Kind names the source format a document was read from.
@@ -131,14 +133,20 @@ type Error struct {
 	Err  error  `json:"-"`
 }
 
+// Error returns "path:line:col: message" (line and column when known). The
+// path and the message are passed through printable.Quote: a file name
+// or a quoted line of a file holding a newline or an escape sequence is
+// shown escaped, so it can neither forge a line of output nor drive the
+// terminal.
 func (e *Error) Error() string {
+	path, msg := printable.Quote(e.Path), printable.Quote(e.Msg)
 	switch {
 	case e.Line > 0 && e.Col > 0:
-		return fmt.Sprintf("%s:%d:%d: %s", e.Path, e.Line, e.Col, e.Msg)
+		return fmt.Sprintf("%s:%d:%d: %s", path, e.Line, e.Col, msg)
 	case e.Line > 0:
-		return fmt.Sprintf("%s:%d: %s", e.Path, e.Line, e.Msg)
+		return fmt.Sprintf("%s:%d: %s", path, e.Line, msg)
 	}
-	return fmt.Sprintf("%s: %s", e.Path, e.Msg)
+	return fmt.Sprintf("%s: %s", path, msg)
 }
 
 // Unwrap returns the underlying cause, if any.

@@ -387,6 +387,56 @@ func TestSnippet(t *testing.T) {
 	}
 }
 
+// TestEventStreamLimit is the regression test for event streams without a
+// cap (20,000 of them ran the process out of file descriptors): over real
+// loopback connections, the streams beyond the cap get 503 at once, and a
+// freed slot is usable again.
+func TestEventStreamLimit(t *testing.T) {
+	s, _, _ := newTestServer(t)
+	s.MaxStreams = 5
+	ts := httptest.NewServer(s.Handler())
+	defer ts.Close()
+	var stops []func()
+	defer func() {
+		for _, stop := range stops {
+			stop()
+		}
+	}()
+	for range s.MaxStreams {
+		_, stop := openEvents(t, ts.URL, "")
+		stops = append(stops, stop)
+	}
+	c := &http.Client{Timeout: 10 * time.Second}
+	resp, err := c.Get(ts.URL + "/events")
+	if err != nil {
+		t.Fatal(err)
+	}
+	resp.Body.Close()
+	if resp.StatusCode != http.StatusServiceUnavailable || resp.Header.Get("Retry-After") == "" {
+		t.Fatalf("stream %d: %s (Retry-After %q), want 503 with Retry-After", s.MaxStreams+1, resp.Status, resp.Header.Get("Retry-After"))
+	}
+	if n := s.subscribers(); n != s.MaxStreams {
+		t.Errorf("%d subscribers, want %d", n, s.MaxStreams)
+	}
+	// The page itself is still served while the streams are full.
+	if resp, err := c.Get(ts.URL + "/"); err != nil || resp.StatusCode != http.StatusOK {
+		t.Fatalf("GET / with the streams full: %v %v", resp, err)
+	} else {
+		resp.Body.Close()
+	}
+	stops[0]()
+	stops = stops[1:]
+	deadline := time.Now().Add(5 * time.Second)
+	for s.subscribers() >= s.MaxStreams {
+		if time.Now().After(deadline) {
+			t.Fatal("a closed stream did not free its slot")
+		}
+		time.Sleep(10 * time.Millisecond)
+	}
+	_, stop := openEvents(t, ts.URL, "")
+	stops = append(stops, stop)
+}
+
 // TestAudience: the preview obeys the audience rule of bundle.Query: a
 // passage labelled for an audience shows only on a server started for it.
 func TestAudience(t *testing.T) {

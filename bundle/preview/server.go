@@ -2,6 +2,7 @@ package preview
 
 import (
 	"bytes"
+	"cmp"
 	"crypto/sha256"
 	_ "embed"
 	"encoding/base64"
@@ -15,6 +16,7 @@ import (
 	"strconv"
 	"strings"
 	"sync"
+	"sync/atomic"
 	"time"
 
 	"github.com/kbc-project/kbc/build/fresh"
@@ -39,6 +41,15 @@ const (
 	// snippetLines and snippetBytes bound the text shown for one result.
 	snippetLines = 6
 	snippetBytes = 600
+	// DefaultMaxStreams is how many event streams a Server keeps open at
+	// once unless MaxStreams says otherwise: one per open preview tab, so
+	// a writer with a few dozen tabs is far below it, while a flood of
+	// connections stops long before the process runs out of file
+	// descriptors (the usual soft limit is 1024; common practice, no
+	// source).
+	DefaultMaxStreams = 256
+	// retryAfter is the Retry-After (seconds) of a 503 over the cap.
+	retryAfter = "10"
 )
 
 //go:embed page.html.tmpl
@@ -54,6 +65,11 @@ var pageJS string
 // New. Its methods and its handler are safe for concurrent use; after Close
 // the handler answers 503 and Reload fails with ErrClosed.
 type Server struct {
+	// MaxStreams caps the event streams open at once; a request for one
+	// more is answered 503 with Retry-After. Zero means
+	// DefaultMaxStreams. Set it before the handler serves.
+	MaxStreams int
+
 	tmpl *template.Template
 	csp  string
 	now  func() time.Time // the clock freshness is judged by
@@ -65,6 +81,9 @@ type Server struct {
 
 	subsMu sync.Mutex
 	subs   map[chan string]struct{}
+	// streams counts the event streams open or being opened, against
+	// MaxStreams.
+	streams atomic.Int64
 
 	done      chan struct{} // closed by Close: event streams end
 	closeOnce sync.Once
@@ -321,6 +340,12 @@ func (s *Server) serveEvents(w http.ResponseWriter, r *http.Request) {
 	}
 	id := h.b.Manifest().BundleID
 	h.users.Done()
+	defer s.streams.Add(-1)
+	if n := s.streams.Add(1); n > int64(cmp.Or(s.MaxStreams, DefaultMaxStreams)) {
+		w.Header().Set("Retry-After", retryAfter)
+		http.Error(w, "preview: too many open pages; close some and reload", http.StatusServiceUnavailable)
+		return
+	}
 	ch := s.subscribe()
 	defer s.unsubscribe(ch)
 

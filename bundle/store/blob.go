@@ -7,6 +7,7 @@ import (
 	"fmt"
 	"io"
 	"io/fs"
+	"math"
 	"net/url"
 	"os"
 	"path/filepath"
@@ -14,6 +15,7 @@ import (
 	"strings"
 	"sync"
 	"sync/atomic"
+	"syscall"
 	"time"
 
 	"gocloud.dev/blob"
@@ -33,6 +35,9 @@ type blobStore struct {
 	// root is the folder of a folder store, where create-only writes use
 	// link(2) (fileblob's IfNotExist is checked only within one process).
 	root string
+	// rootFS opens the objects of a folder store for reading, so that
+	// none is read through a symlink that leaves the folder (os.Root).
+	rootFS *os.Root
 }
 
 // completeMarker is the object written last into a version.
@@ -58,7 +63,12 @@ func openFolder(dir string) (*blobStore, error) {
 	if err != nil {
 		return nil, err
 	}
-	return &blobStore{bucket: b, root: dir}, nil
+	r, err := os.OpenRoot(dir)
+	if err != nil {
+		b.Close()
+		return nil, err
+	}
+	return &blobStore{bucket: b, root: dir, rootFS: r}, nil
 }
 
 // openS3 opens s3://BUCKET/PREFIX?query: the path is our key prefix, the
@@ -81,7 +91,80 @@ func openS3(ctx context.Context, loc string) (*blobStore, error) {
 	return &blobStore{bucket: b, prefix: prefix}, nil
 }
 
-func (s *blobStore) close() error { return s.bucket.Close() }
+func (s *blobStore) close() error {
+	if s.rootFS != nil {
+		s.rootFS.Close()
+	}
+	return s.bucket.Close()
+}
+
+// Bounds on what is read from a store, whatever it holds.
+const (
+	// maxSmallObject bounds a complete marker and a pointer revision
+	// (a few hundred bytes each).
+	maxSmallObject = 1 << 20
+	// maxUnsizedFile bounds a file whose manifest lists no size (a
+	// bundle written before sizes were recorded).
+	maxUnsizedFile = 4 << 30
+)
+
+// errNotRegular is the error for an object of a folder store that is not a
+// regular file: a symlink, a FIFO, a device, a folder.
+var errNotRegular = errors.New("not a regular file")
+
+// isNotFound reports whether err means the object does not exist.
+func isNotFound(err error) bool {
+	return gcerrors.Code(err) == gcerrors.NotFound || errors.Is(err, fs.ErrNotExist)
+}
+
+// openObject opens the object key for reading. In a folder store it opens
+// only a regular file inside the store's folder: not through a symlink
+// (which could bring in /dev/zero or a file from elsewhere), and never
+// waiting on a FIFO (opened non-blocking, then checked with fstat).
+func (s *blobStore) openObject(ctx context.Context, key string) (io.ReadCloser, error) {
+	if s.rootFS == nil {
+		return s.bucket.NewReader(ctx, key, nil)
+	}
+	name := filepath.FromSlash(key)
+	fi, err := s.rootFS.Lstat(name)
+	if err != nil {
+		return nil, err
+	}
+	if !fi.Mode().IsRegular() {
+		return nil, fmt.Errorf("%s: %w (%s)", key, errNotRegular, fi.Mode().Type())
+	}
+	f, err := s.rootFS.OpenFile(name, os.O_RDONLY|syscall.O_NONBLOCK, 0)
+	if err != nil {
+		return nil, err
+	}
+	fi2, err := f.Stat()
+	if err == nil && (!fi2.Mode().IsRegular() || !os.SameFile(fi, fi2)) {
+		err = fmt.Errorf("%s: %w (replaced while being opened)", key, errNotRegular)
+	}
+	if err != nil {
+		f.Close()
+		return nil, err
+	}
+	return f, nil
+}
+
+// readObject reads the object key whole, refusing one longer than limit
+// bytes without reading past it.
+func (s *blobStore) readObject(ctx context.Context, key string, limit int64) ([]byte, error) {
+	r, err := s.openObject(ctx, key)
+	if err != nil {
+		return nil, err
+	}
+	defer r.Close()
+	data, err := io.ReadAll(io.LimitReader(r, limit+1))
+	if err != nil {
+		return nil, err
+	}
+	if int64(len(data)) > limit {
+		return nil, fmt.Errorf("%s: larger than %d bytes", key, limit)
+	}
+	return data, nil
+}
 
 func (s *blobStore) versionKey(id string) string { return s.prefix + "versions/" + id + "/" }
 func (s *blobStore) pointerKey(name string) string {
@@ -163,6 +246,48 @@ func syncDir(dir string) error {
 	return nil
 }
 
+// staleObjectAge is how long a temporary object in a folder store must have
+// gone unwritten before a publish removes it as left by a killed one: an
+// upload in progress writes to its file all the time (common practice, no
+// source).
+const staleObjectAge = 10 * time.Minute
+
+// isTempObject reports whether name is a temporary object of a folder
+// store: fileblob's NAME.<hex nanoseconds>.tmp or createOnly's .new-*.
+func isTempObject(name string) bool {
+	if strings.HasPrefix(name, ".new-") {
+		return true
+	}
+	rest, ok := strings.CutSuffix(name, ".tmp")
+	if !ok {
+		return false
+	}
+	i := strings.LastIndexByte(rest, '.')
+	if i < 0 || i == len(rest)-1 {
+		return false
+	}
+	_, err := strconv.ParseUint(rest[i+1:], 16, 64)
+	return err == nil
+}
+
+// sweepTemp removes, in a folder store, the temporary objects that killed
+// publishes left behind (best effort: a store it cannot walk is left as
+// it is).
+func (s *blobStore) sweepTemp() {
+	if s.root == "" {
+		return
+	}
+	filepath.WalkDir(s.root, func(p string, d fs.DirEntry, err error) error {
+		if err != nil || !d.Type().IsRegular() || !isTempObject(d.Name()) {
+			return nil
+		}
+		if fi, err := d.Info(); err == nil && time.Since(fi.ModTime()) > staleObjectAge {
+			os.Remove(p)
+		}
+		return nil
+	})
+}
+
 // bundleFiles returns the files of the bundle m describes, manifest.json
 // first.
 func bundleFiles(m *bundle.Manifest) ([]string, error) {
@@ -190,6 +315,7 @@ func (s *blobStore) putVersion(ctx context.Context, dir string, m *bundle.Manife
 	if !isHexID(m.BundleID) {
 		return fmt.Errorf("invalid bundle id %q", m.BundleID)
 	}
+	s.sweepTemp()
 	base := s.versionKey(m.BundleID)
 	files, err := bundleFiles(m)
 	if err != nil {
@@ -282,7 +408,7 @@ func (s *blobStore) upload(ctx context.Context, key, p string) (err error) {
 
 func (s *blobStore) getVersion(ctx context.Context, id, tmp string) error {
 	base := s.versionKey(id) + "files/"
-	data, err := s.bucket.ReadAll(ctx, base+bundle.ManifestFile)
+	data, err := s.readObject(ctx, base+bundle.ManifestFile, bundle.MaxManifestSize)
 	if err != nil {
 		return fmt.Errorf("%s: %w", bundle.ManifestFile, err)
 	}
@@ -301,8 +427,12 @@ func (s *blobStore) getVersion(ctx context.Context, id, tmp string) error {
 	g.SetLimit(transferLimit)
 	for _, name := range files[1:] {
 		g.Go(func() error {
-			if err := s.download(gctx, base+name, filepath.Join(tmp, filepath.FromSlash(name))); err != nil {
-				if gcerrors.Code(err) == gcerrors.NotFound {
+			limit, ok := m.Sizes[name]
+			if !ok {
+				limit = maxUnsizedFile
+			}
+			if err := s.download(gctx, base+name, filepath.Join(tmp, filepath.FromSlash(name)), limit); err != nil {
+				if isNotFound(err) {
 					return nil // Verify names it as missing
 				}
 				return fmt.Errorf("%s: %w", name, err)
@@ -313,8 +443,10 @@ func (s *blobStore) getVersion(ctx context.Context, id, tmp string) error {
 	return g.Wait()
 }
 
-func (s *blobStore) download(ctx context.Context, key, p string) error {
-	r, err := s.bucket.NewReader(ctx, key, nil)
+// download copies the object key into the new file p, at most limit+1
+// bytes of it.
+func (s *blobStore) download(ctx context.Context, key, p string, limit int64) error {
+	r, err := s.openObject(ctx, key)
 	if err != nil {
 		return err
 	}
@@ -326,7 +458,9 @@ func (s *blobStore) download(ctx context.Context, key, p string) error {
 	if err != nil {
 		return err
 	}
-	_, err = r.WriteTo(f)
+	// One byte past the limit is enough for Verify to name the file as
+	// changed (by its size, without hashing it).
+	_, err = io.Copy(f, io.LimitReader(r, limit+1))
 	if err == nil {
 		err = f.Sync()
 	}
@@ -365,7 +499,7 @@ func (s *blobStore) versions(ctx context.Context) ([]Version, error) {
 			continue
 		}
 		v := Version{ID: id}
-		data, err := s.bucket.ReadAll(ctx, s.versionKey(id)+"complete")
+		data, err := s.readObject(ctx, s.versionKey(id)+"complete", maxSmallObject)
 		switch {
 		case err == nil:
 			var mk completeMarker
@@ -373,16 +507,16 @@ func (s *blobStore) versions(ctx context.Context) ([]Version, error) {
 				return nil, fmt.Errorf("%s: %w", s.versionKey(id)+"complete", err)
 			}
 			v.Complete, v.PublishedAt = true, mk.PublishedAt
-		case gcerrors.Code(err) != gcerrors.NotFound:
+		case !isNotFound(err):
 			return nil, err
 		}
-		data, err = s.bucket.ReadAll(ctx, s.versionKey(id)+"files/"+bundle.ManifestFile)
+		data, err = s.readObject(ctx, s.versionKey(id)+"files/"+bundle.ManifestFile, bundle.MaxManifestSize)
 		if err == nil {
 			var m bundle.Manifest
 			if json.Unmarshal(data, &m) == nil {
 				v.BuiltAt, v.SourceCommit, v.Counts = m.BuiltAt, m.SourceCommit, m.Counts
 			}
-		} else if gcerrors.Code(err) != gcerrors.NotFound {
+		} else if !isNotFound(err) {
 			return nil, err
 		}
 		out = append(out, v)
@@ -444,7 +578,7 @@ func (s *blobStore) pointer(ctx context.Context, name string) (Pointer, string, 
 		return Pointer{}, "", fmt.Errorf("pointer %s: %w", name, ErrNotFound)
 	}
 	key := prefix + revisionName(best)
-	data, err := s.bucket.ReadAll(ctx, key)
+	data, err := s.readObject(ctx, key, maxSmallObject)
 	if err != nil {
 		return Pointer{}, "", err
 	}
@@ -468,6 +602,9 @@ func (s *blobStore) setPointer(ctx context.Context, p Pointer, rev string) (Poin
 		if prev, err = strconv.ParseInt(rev, 10, 64); err != nil {
 			return Pointer{}, err
 		}
+	}
+	if prev < 0 || prev == math.MaxInt64 {
+		return Pointer{}, fmt.Errorf("pointer %s is at revision %d, the last there can be: remove its folder in the store to start it again at 1", p.Name, prev)
 	}
 	p.Revision = prev + 1
 	data, err := json.MarshalIndent(p, "", "  ")

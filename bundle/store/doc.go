@@ -76,7 +76,18 @@
 // (~/.docker/config.json or $DOCKER_CONFIG, credential helpers included).
 // Every error a Store returns, and Store.String, has those variables' values
 // and any user information or secret-looking query value of the location
-// replaced by "[redacted]".
+// replaced by "[redacted]": the user information of every URL as typed (also
+// percent-encoded or nested in a query value) and secret-looking key=value
+// pairs, found by Redact, which other commands use for their own locations.
+//
+// # Hostile stores
+//
+// Pull reads nothing unbounded: manifest.json up to bundle.MaxManifestSize,
+// markers and pointer revisions up to 1 MiB, every other file up to the size
+// its manifest lists (OCI layers are checked against those sizes before they
+// are fetched). A folder store's objects are read only when they are regular
+// files inside its folder. The bundle id names passages.jsonl only; the
+// manifest's files digest names every file, and Ref.Digest pins it.
 //
 // # Concurrency
 //

@@ -301,13 +301,60 @@ func (s *ociStore) getVersion(ctx context.Context, id, tmp string) error {
 	if err != nil {
 		return err
 	}
-	for _, l := range man.Layers {
+	// manifest.json first, bounded, so that its sizes bound the rest: a
+	// layer's descriptor comes from the registry and may claim anything.
+	i := slices.IndexFunc(man.Layers, func(l ocispec.Descriptor) bool {
+		return l.Annotations[ocispec.AnnotationTitle] == bundle.ManifestFile
+	})
+	if i < 0 {
+		return fmt.Errorf("%s: %w in the version", bundle.ManifestFile, ErrNotFound)
+	}
+	if man.Layers[i].Size > bundle.MaxManifestSize {
+		return fmt.Errorf("%s: larger than %d bytes", bundle.ManifestFile, bundle.MaxManifestSize)
+	}
+	if err := s.fetchLayer(ctx, man.Layers[i], tmp); err != nil {
+		return fmt.Errorf("%s: %w", bundle.ManifestFile, err)
+	}
+	m, err := bundle.ReadManifest(tmp)
+	if err != nil {
+		return err
+	}
+	for j, l := range man.Layers {
+		if j == i {
+			continue
+		}
 		title := l.Annotations[ocispec.AnnotationTitle]
+		if limit := layerLimit(m, l); l.Size > limit {
+			return fmt.Errorf("%s: layer of %d bytes, more than the %d the manifest allows", title, l.Size, limit)
+		}
 		if err := s.fetchLayer(ctx, l, tmp); err != nil {
 			return fmt.Errorf("%s: %w", title, err)
 		}
 	}
 	return nil
+}
+
+// layerLimit is the most bytes the layer l of the bundle m may hold: a
+// file's listed size, or for the index tar the listed sizes of its files
+// rounded up to tar's 512-byte blocks, plus a header per file and folder
+// and the end-of-archive blocks and padding (POSIX pax/ustar format; tar
+// pads to 10240 bytes). Without sizes (an older bundle), maxUnsizedFile.
+func layerLimit(m *bundle.Manifest, l ocispec.Descriptor) int64 {
+	if len(m.Sizes) == 0 {
+		return maxUnsizedFile
+	}
+	title := l.Annotations[ocispec.AnnotationTitle]
+	if l.MediaType != MediaTypeIndex {
+		return m.Sizes[title] // 0 for a file not listed: Verify names it
+	}
+	var n int64 = 2*512 + 10240
+	for name, size := range m.Sizes {
+		if strings.HasPrefix(name, bundle.IndexDir+"/") {
+			// a header (and room for a pax one), the data, a header per folder
+			n += 3*512 + (size+511)/512*512 + int64(strings.Count(name, "/"))*512
+		}
+	}
+	return n + 512 // the index folder itself
 }
 
 // fetchLayer downloads one layer into tmp, checking its digest: a file

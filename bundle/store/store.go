@@ -85,6 +85,8 @@ type PublishOptions struct {
 // PublishResult says what Publish did.
 type PublishResult struct {
 	BundleID string
+	// FilesDigest is the bundle's files digest (see Ref.Digest).
+	FilesDigest string
 	// Uploaded and Skipped count objects (files, markers, layers) sent
 	// and found already in the store; UploadedBytes sums the former.
 	Uploaded, Skipped int
@@ -98,6 +100,11 @@ type PublishResult struct {
 type Ref struct {
 	Pointer string
 	ID      string
+	// Digest, when set, pins every file, not only the passages the id
+	// names: Pull fails unless the version's manifest has this files
+	// digest (bundle.Manifest.FilesDigest, "sha256:<hex>") and its files
+	// match it.
+	Digest string
 }
 
 // backend is one kind of store. Revisions are opaque to Store: a counter in
@@ -204,7 +211,7 @@ func (s *Store) publish(ctx context.Context, dir string, opts PublishOptions) (*
 			return nil, fmt.Errorf("reading pointer %s in %s: %w", name, s.display, err)
 		}
 	}
-	res := &PublishResult{BundleID: m.BundleID}
+	res := &PublishResult{BundleID: m.BundleID, FilesDigest: m.FilesDigest}
 	if err := s.b.putVersion(ctx, dir, m, s, res); err != nil {
 		return res, fmt.Errorf("publishing %s to %s stopped before the version was complete, so no pointer was moved (run the same publish again to finish it): %w", m.BundleID, s.display, err)
 	}
@@ -330,6 +337,13 @@ func checkPointerName(n string) error {
 // manifest, and only then swaps it into place (see bundle.Install). Any
 // mismatch returns a *MismatchError naming the files, and dir stays as it
 // was.
+//
+// Pull trusts nothing the store holds beyond what it checks: manifest.json
+// is read only up to bundle.MaxManifestSize, every other file only up to
+// the size its manifest lists, and from a folder store only regular files
+// inside the store's folder are read (no symlink, FIFO or device). The
+// temporary folders of pulls that were killed before they could clean up
+// are removed by the next pull into the same dir.
 func (s *Store) Pull(ctx context.Context, dir string, ref Ref) (*bundle.Manifest, error) {
 	m, err := s.pull(ctx, dir, ref)
 	return m, s.red.wrap(err)
@@ -357,10 +371,13 @@ func (s *Store) pull(ctx context.Context, dir string, ref Ref) (_ *bundle.Manife
 		return nil, fmt.Errorf("version %s: %w in %s (or its upload never finished)", id, ErrNotFound, s.display)
 	}
 	dir = filepath.Clean(dir)
-	tmp, err := os.MkdirTemp(filepath.Dir(dir), "."+filepath.Base(dir)+".pull-")
+	// Locked while in use, so that the next pull can tell a folder left
+	// by a killed one from a folder another pull is filling.
+	tmp, unlock, err := bundle.TempDir(filepath.Dir(dir), "."+filepath.Base(dir)+".pull-")
 	if err != nil {
 		return nil, err
 	}
+	defer unlock()
 	defer func() {
 		if err != nil {
 			os.RemoveAll(tmp)
@@ -382,6 +399,9 @@ func (s *Store) pull(ctx context.Context, dir string, ref Ref) (_ *bundle.Manife
 	}
 	if m.BundleID != id {
 		bad = append(bad, bundle.Mismatch{File: bundle.ManifestFile, Want: id, Got: m.BundleID, Problem: bundle.Changed})
+	}
+	if ref.Digest != "" && m.FilesDigest != ref.Digest {
+		bad = append(bad, bundle.Mismatch{File: bundle.ManifestFile, Want: ref.Digest, Got: cmp.Or(m.FilesDigest, "no files digest"), Problem: bundle.Changed})
 	}
 	if len(bad) > 0 {
 		return nil, fmt.Errorf("pulling %s from %s: %w", id, s.display, &MismatchError{Mismatches: bad})

@@ -7,6 +7,7 @@ import (
 
 	"github.com/kbc-project/kbc/build"
 	"github.com/kbc-project/kbc/bundle"
+	"github.com/kbc-project/kbc/internal/printable"
 )
 
 func runDiff(args []string, stdout, stderr io.Writer) int {
@@ -61,7 +62,7 @@ func runDiff(args []string, stdout, stderr io.Writer) int {
 		if p.Anchor != "" {
 			loc += "#" + p.Anchor
 		}
-		fmt.Fprintf(stdout, "%s %s  %s:%d-%d\n", mark, p.ID, loc, p.Line, p.EndLine)
+		fmt.Fprintf(stdout, "%s %s  %s:%d-%d\n", mark, p.ID, printable.Quote(loc), p.Line, p.EndLine)
 	}
 	for _, id := range d.Added {
 		show("+", b[id])

@@ -8,8 +8,10 @@ import (
 	"os"
 	"os/signal"
 	"strings"
+	"syscall"
 
 	"github.com/kbc-project/kbc/bundle/store"
+	"github.com/kbc-project/kbc/internal/printable"
 )
 
 // storeKinds is the part of every store command's help that names the stores.
@@ -17,10 +19,11 @@ const storeKinds = "A store is a folder (or file:///path), s3://BUCKET/PREFIX?en
 	"(credentials from AWS_* variables or ~/.aws), or oci://HOST[:PORT]/REPO[:TAG] (credentials\n" +
 	"from the Docker configuration; plain HTTP on 127.0.0.1 and localhost)."
 
-// storeContext returns a context cancelled by Ctrl-C, so an interrupted
-// transfer stops cleanly (and leaves no pointer moved).
+// storeContext returns a context cancelled by Ctrl-C or SIGTERM (what a
+// service manager or CI runner sends), so an interrupted transfer stops
+// cleanly: no pointer moved, no temporary folder left.
 func storeContext() (context.Context, context.CancelFunc) {
-	return signal.NotifyContext(context.Background(), os.Interrupt)
+	return signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
 }
 
 func openStore(ctx context.Context, name, loc string, stderr io.Writer) (*store.Store, bool) {
@@ -85,6 +88,9 @@ func runPublish(args []string, stdout, stderr io.Writer) int {
 	}
 	fmt.Fprintf(stdout, "published %s to %s\n", res.BundleID, s)
 	fmt.Fprintf(stdout, "  objects   %d uploaded (%s), %d already there\n", res.Uploaded, sizeString(res.UploadedBytes), res.Skipped)
+	if res.FilesDigest != "" {
+		fmt.Fprintf(stdout, "  digest    %s (kbc pull --digest pins every file)\n", res.FilesDigest)
+	}
 	for _, p := range res.Pointers {
 		fmt.Fprintf(stdout, "  pointer   %s -> %s (was %s)\n", p.Name, shortID(p.BundleID), orDash(shortID(p.Previous)))
 	}
@@ -96,10 +102,12 @@ func runPull(args []string, stdout, stderr io.Writer) int {
 		"Pull downloads a version from the store SRC into a new folder beside DIR, checks every\n"+
 			"file's SHA-256 against the bundle's manifest, and only then swaps it into DIR. On any\n"+
 			"mismatch it names the file, exits 1 and leaves DIR as it was. Without --tag or --id it\n"+
-			"pulls what \"latest\" (or SRC's :TAG) names.\n\n"+storeKinds,
+			"pulls what \"latest\" (or SRC's :TAG) names. The id names the passages only; --digest\n"+
+			"(printed by kbc publish) pins every file of the bundle.\n\n"+storeKinds,
 		"kbc pull oci://registry.example.com/docs/handbook:stable /srv/assistant/bundle", stderr)
 	tag := fs.String("tag", "", "pull the version the pointer `NAME` names")
 	id := fs.String("id", "", "pull the version `ID` (at least 8 leading hex digits)")
+	digest := fs.String("digest", "", "fail unless the bundle's files digest is `sha256:HEX` (pins every file)")
 	pos, code := parseArgs(fs, args, stdout)
 	if code >= 0 {
 		return code
@@ -117,7 +125,7 @@ func runPull(args []string, stdout, stderr io.Writer) int {
 		return exitFailure
 	}
 	defer s.Close()
-	m, err := s.Pull(ctx, pos[1], store.Ref{Pointer: *tag, ID: *id})
+	m, err := s.Pull(ctx, pos[1], store.Ref{Pointer: *tag, ID: *id, Digest: *digest})
 	if err != nil {
 		fmt.Fprintf(stderr, "kbc pull: %v\n", err)
 		return exitFailure
@@ -179,7 +187,7 @@ func runVersions(args []string, stdout, stderr io.Writer) int {
 			state = "INCOMPLETE"
 		}
 		fmt.Fprintf(stdout, "%s  %s  commit %-12.12s  %6d passages %8d tokens  %s\n",
-			shortID(v.ID), t, orDash(v.SourceCommit), v.Counts["passages"], v.Counts["tokens"], state)
+			shortID(v.ID), t, printable.Quote(orDash(v.SourceCommit)), v.Counts["passages"], v.Counts["tokens"], state)
 	}
 	return exitOK
 }

@@ -10,6 +10,7 @@ import (
 	"time"
 
 	"github.com/kbc-project/kbc/bundle"
+	"github.com/kbc-project/kbc/internal/printable"
 )
 
 // searchFlags are the flags of every command that searches a bundle
@@ -98,15 +99,19 @@ func runQuery(args []string, stdout, stderr io.Writer) int {
 		if h.Anchor != "" {
 			loc += "#" + h.Anchor
 		}
-		fmt.Fprintf(stdout, "%2d. %6.3f  %s  (lines %d-%d)  %s\n", i+1, h.Score, loc, h.Line, h.EndLine, h.Status)
+		fmt.Fprintf(stdout, "%2d. %6.3f  %s  (lines %d-%d)  %s\n", i+1, h.Score, printable.Quote(loc), h.Line, h.EndLine, h.Status)
 		if len(h.Heading) > 0 {
-			fmt.Fprintf(stdout, "    %s\n", strings.Join(h.Heading, " > "))
+			fmt.Fprintf(stdout, "    %s\n", printable.Quote(strings.Join(h.Heading, " > ")))
 		}
 		for _, l := range firstLines(h.Text, 2, 100) {
-			fmt.Fprintf(stdout, "    | %s\n", l)
+			fmt.Fprintf(stdout, "    | %s\n", printable.Quote(l))
 		}
 		if len(h.AlsoAt) > 0 {
-			fmt.Fprintf(stdout, "    also at: %s\n", strings.Join(h.AlsoAt, ", "))
+			also := make([]string, len(h.AlsoAt))
+			for i, a := range h.AlsoAt {
+				also[i] = printable.Quote(a)
+			}
+			fmt.Fprintf(stdout, "    also at: %s\n", strings.Join(also, ", "))
 		}
 		for _, c := range h.Conflict {
 			var parts []string

@@ -11,6 +11,8 @@ import (
 	"strings"
 	"time"
 
+	"golang.org/x/net/netutil"
+
 	"github.com/kbc-project/kbc/build"
 	"github.com/kbc-project/kbc/bundle/preview"
 	"github.com/kbc-project/kbc/watch"
@@ -135,9 +137,13 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 			fmt.Fprintf(stderr, "kbc watch: %v\n", err)
 			return exitFailure
 		}
-		hs := &http.Server{Handler: pv.Handler(), ReadHeaderTimeout: 10 * time.Second}
+		// Idle keep-alive connections are closed after a while, and the
+		// connections open at once are capped (beyond the event streams'
+		// own cap, which answers 503), so a flood of connections waits in
+		// the kernel's queue instead of using up file descriptors.
+		hs := &http.Server{Handler: pv.Handler(), ReadHeaderTimeout: 10 * time.Second, IdleTimeout: time.Minute}
 		go func() {
-			if err := hs.Serve(ln); !errors.Is(err, http.ErrServerClosed) {
+			if err := hs.Serve(netutil.LimitListener(ln, 2*preview.DefaultMaxStreams)); !errors.Is(err, http.ErrServerClosed) {
 				fmt.Fprintf(stderr, "kbc watch: preview: %v\n", err)
 			}
 		}()
