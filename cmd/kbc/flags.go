@@ -6,7 +6,10 @@ import (
 	"flag"
 	"fmt"
 	"io"
+	"path/filepath"
 	"strings"
+
+	"github.com/kbc-project/kbc/bundle"
 )
 
 // newFlags returns a flag set whose -h output shows usage and an example.
@@ -89,6 +92,11 @@ func srcAndOut(fs *flag.FlagSet, pos []string, out string, stderr io.Writer) (st
 	}
 	if out == "" {
 		return "", badUsage(fs, stderr, "missing -o OUT")
+	}
+	// Before any work: OUT may be replaced only when it is a bundle.
+	if err := bundle.CheckTarget(filepath.Clean(out)); err != nil {
+		fmt.Fprintf(stderr, "kbc %s: -o %s: %v\n", fs.Name(), out, err)
+		return "", exitFailure
 	}
 	return pos[0], -1
 }

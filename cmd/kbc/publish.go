@@ -7,8 +7,10 @@ import (
 	"io"
 	"os"
 	"os/signal"
+	"path/filepath"
 	"strings"
 
+	"github.com/kbc-project/kbc/bundle"
 	"github.com/kbc-project/kbc/bundle/store"
 )
 
@@ -109,6 +111,11 @@ func runPull(args []string, stdout, stderr io.Writer) int {
 	}
 	if *tag != "" && *id != "" {
 		return badUsage(fs, stderr, "give --tag or --id, not both")
+	}
+	// Before any download: DIR may be replaced only when it is a bundle.
+	if err := bundle.CheckTarget(filepath.Clean(pos[1])); err != nil {
+		fmt.Fprintf(stderr, "kbc pull: %s: %v\n", pos[1], err)
+		return exitFailure
 	}
 	ctx, cancel := storeContext()
 	defer cancel()
