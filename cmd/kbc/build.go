@@ -213,14 +213,19 @@ type session struct {
 	commitKnown bool
 }
 
+// toolKey names this kbc binary for the build cache and the up-to-date
+// stamp: the version and the binary's own build ID (build.BinaryID), so
+// that a changed binary with the same version string trusts neither.
+func toolKey() string { return "kbc " + version + " " + build.BinaryID() }
+
 // cacheFor returns the build cache: the one in memory when there is one,
-// else the one on disk when this kbc version made it, else a new one. A
-// cache that cannot be read, or was made by another kbc version, is
+// else the one on disk when this kbc binary made it, else a new one. A
+// cache that cannot be read, or was made by another kbc binary, is
 // reported once and replaced: it is never trusted. (Settings key the
 // cached passages inside it, so a settings change re-splits pages without
 // parsing them again.)
 func (s *session) cacheFor(stderr io.Writer) *build.Cache {
-	tool := "kbc " + version
+	tool := toolKey()
 	if s.cache.Fits(tool) {
 		return s.cache
 	}
@@ -232,7 +237,7 @@ func (s *session) cacheFor(stderr io.Writer) *build.Cache {
 		fmt.Fprintf(stderr, "kbc: build cache unreadable (%v); rebuilding it\n", err)
 		c = nil
 	case c != nil && !c.Fits(tool):
-		fmt.Fprintf(stderr, "kbc: build cache %s was made by another kbc version; rebuilding it\n", bundle.CacheDir(s.out))
+		fmt.Fprintf(stderr, "kbc: build cache %s was made by another kbc binary; rebuilding it\n", bundle.CacheDir(s.out))
 		c = nil
 	}
 	if c == nil {
@@ -355,7 +360,7 @@ func runBuild(args []string, stdout, stderr io.Writer) int {
 	var walked []sources.File
 	looked := time.Now()
 	if opts, g, err := sf.options(src); err == nil && !*strict {
-		extra := fmt.Sprintf("%s\x00%s %t\x00%s", version, sess.commit, sess.dirty, os.Getenv("SOURCE_DATE_EPOCH"))
+		extra := fmt.Sprintf("%s\x00%s %t\x00%s", toolKey(), sess.commit, sess.dirty, os.Getenv("SOURCE_DATE_EPOCH"))
 		if dir, err := sources.OpenDir(src); err == nil {
 			inputs, walked = build.InputsDigest(dir, opts, extra)
 			code, ok := upToDate(*out, src, dir, inputs, walked, g, *asJSON, start, stdout, stderr)
