@@ -328,25 +328,31 @@ func Match(glob, p string) bool {
 	return matchParts(strings.Split(strings.Trim(glob, "/"), "/"), strings.Split(p, "/"))
 }
 
+// matchParts matches glob elements g against path elements p. It fills
+// a table of which suffixes of g match which suffixes of p, so the time
+// is len(g) x len(p) element matches whatever the number of "**" (a
+// backtracking match takes exponential time on "**/**/**/.../x").
 func matchParts(g, p []string) bool {
-	for len(g) > 0 {
-		if g[0] == "**" {
-			for i := 0; i <= len(p); i++ {
-				if matchParts(g[1:], p[i:]) {
-					return true
-				}
+	// next[j] reports whether g[i+1:] matches p[j:]; cur is row i.
+	next := make([]bool, len(p)+1)
+	cur := make([]bool, len(p)+1)
+	next[len(p)] = true
+	for i := len(g) - 1; i >= 0; i-- {
+		cur[len(p)] = g[i] == "**" && next[len(p)]
+		for j := len(p) - 1; j >= 0; j-- {
+			if g[i] == "**" {
+				cur[j] = next[j] || cur[j+1]
+				continue
 			}
-			return false
+			ok := next[j+1]
+			if ok {
+				ok, _ = path.Match(g[i], p[j])
+			}
+			cur[j] = ok
 		}
-		if len(p) == 0 {
-			return false
-		}
-		if ok, _ := path.Match(g[0], p[0]); !ok {
-			return false
-		}
-		g, p = g[1:], p[1:]
+		next, cur = cur, next
 	}
-	return len(p) == 0
+	return next[0]
 }
 
 // ReadFile reads the walked file f from fsys, refusing to read past the
