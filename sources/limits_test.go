@@ -89,4 +89,3 @@ func TestMarkdownNestingLimit(t *testing.T) {
 		}
 	}
 }
-
