@@ -17,6 +17,10 @@ import (
 // ConfigFile is the name of the optional config file at the source root.
 const ConfigFile = "kbc.toml"
 
+// MaxConfigSize is the largest config file read: 64 KiB, hundreds of
+// times a real one (our judgement, as for front matter).
+const MaxConfigSize = 64 << 10
+
 // Config is the optional config file. Every field is optional: a missing
 // field keeps its default, and command-line flags override the file.
 type Config struct {
@@ -72,7 +76,17 @@ func LoadConfig(fsys fs.FS) (*Config, error) {
 }
 
 // ParseConfig parses the text of a config file.
+//
+// The file comes with SRC, which may be hostile: it is refused before
+// decoding when it is over MaxConfigSize or nested deeper than
+// sources.MaxFrontMatterDepth (the decoder's memory grows with depth).
 func ParseConfig(data []byte) (*Config, error) {
+	if len(data) > MaxConfigSize {
+		return nil, &sources.Error{Path: ConfigFile, Msg: fmt.Sprintf("%d bytes, over the %d-byte limit for a config file", len(data), MaxConfigSize)}
+	}
+	if line := sources.NestedTooDeep(data, "toml", sources.MaxFrontMatterDepth); line > 0 {
+		return nil, &sources.Error{Path: ConfigFile, Line: line, Msg: fmt.Sprintf("nested more than %d levels deep", sources.MaxFrontMatterDepth)}
+	}
 	var c Config
 	md, err := toml.Decode(string(data), &c)
 	if err != nil {

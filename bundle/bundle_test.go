@@ -390,7 +390,7 @@ func TestWriteRefuses(t *testing.T) {
 		name, out, want string
 	}{
 		{"out is a file", file, "writing bundle " + file + ": it exists and is not a folder"},
-		{"out is another folder", full, "writing bundle " + full + ": refusing to replace a folder that is not empty and holds no manifest.json"},
+		{"out is another folder", full, "writing bundle " + full + ": refusing to replace " + full + ": not a kbc bundle: no manifest.json; it holds photos/"},
 		{"parent is a file", filepath.Join(file, "out"), "writing bundle " + filepath.Join(file, "out") + ": cannot use it: "},
 		{"parent is missing", filepath.Join(dir, "nope", "out"), "writing bundle " + filepath.Join(dir, "nope", "out") + ": cannot create a folder in " + filepath.Join(dir, "nope") + ": "},
 	}

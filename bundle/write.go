@@ -295,10 +295,15 @@ func isHexHash(s string) bool {
 	return true
 }
 
-// checkTarget refuses an out that Write must not replace: anything but a
-// folder, or a folder that is neither empty nor a bundle.
-func checkTarget(out string) error {
-	fi, err := os.Lstat(out)
+// CheckTarget reports why the folder dir must not be replaced by a
+// bundle, or nil when it may be: dir does not exist, is an empty folder,
+// or holds a readable kbc manifest (manifest.json with a "format" number
+// and a 64-hex-digit "bundle_id"). A file that is merely named
+// manifest.json (a web app has one) does not make a folder a bundle.
+// Write, Install and the commands that write a bundle call it before they
+// touch anything.
+func CheckTarget(dir string) error {
+	fi, err := os.Lstat(dir)
 	if errors.Is(err, fs.ErrNotExist) {
 		return nil
 	}
@@ -308,17 +313,74 @@ func checkTarget(out string) error {
 	if !fi.IsDir() {
 		return errors.New("it exists and is not a folder")
 	}
-	if _, err := os.Lstat(filepath.Join(out, ManifestFile)); err == nil {
-		return nil
-	}
-	entries, err := os.ReadDir(out)
+	entries, err := os.ReadDir(dir)
 	if err != nil {
 		return err
 	}
-	if len(entries) > 0 {
-		return errors.New("refusing to replace a folder that is not empty and holds no manifest.json")
+	if len(entries) == 0 {
+		return nil
 	}
-	return nil
+	why := isBundleManifest(filepath.Join(dir, ManifestFile))
+	if why == "" {
+		return nil
+	}
+	return fmt.Errorf("refusing to replace %s: not a kbc bundle: %s; it holds %s", dir, why, listEntries(entries))
+}
+
+// checkTarget is CheckTarget for Write and Install.
+func checkTarget(out string) error { return CheckTarget(out) }
+
+// isBundleManifest returns "" when the file at p is a kbc manifest, else
+// what is wrong with it. Only the two fields every format version has
+// are read: the file may come from a newer kbc.
+func isBundleManifest(p string) string {
+	fi, err := os.Lstat(p)
+	switch {
+	case errors.Is(err, fs.ErrNotExist):
+		return "no manifest.json"
+	case err != nil:
+		return fmt.Sprintf("its manifest.json cannot be read (%v)", err)
+	case !fi.Mode().IsRegular():
+		return "its manifest.json is not a regular file"
+	case fi.Size() > 64<<20:
+		return "its manifest.json is too large for a kbc manifest"
+	}
+	data, err := os.ReadFile(p)
+	if err != nil {
+		return fmt.Sprintf("its manifest.json cannot be read (%v)", err)
+	}
+	var m struct {
+		Format   *int   `json:"format"`
+		BundleID string `json:"bundle_id"`
+	}
+	if err := json.Unmarshal(data, &m); err != nil {
+		return "its manifest.json is not JSON"
+	}
+	if m.Format == nil || *m.Format < 1 {
+		return `its manifest.json has no kbc "format" number`
+	}
+	if len(m.BundleID) != 64 || strings.Trim(m.BundleID, "0123456789abcdef") != "" {
+		return `its manifest.json has no kbc "bundle_id"`
+	}
+	return ""
+}
+
+// listEntries names a folder's entries for an error: folders end in
+// "/", at most five are named.
+func listEntries(entries []fs.DirEntry) string {
+	var names []string
+	for i, e := range entries {
+		if i == 5 {
+			names = append(names, fmt.Sprintf("and %d more", len(entries)-5))
+			break
+		}
+		n := e.Name()
+		if e.IsDir() {
+			n += "/"
+		}
+		names = append(names, n)
+	}
+	return strings.Join(names, ", ")
 }
 
 // sortedOrder returns the indexes of ps ordered by path, line and id.

@@ -67,7 +67,16 @@ func SplitFrontMatter(name string, src []byte) (front map[string]any, format str
 		return nil, "", start, &Error{Path: name, Line: 1,
 			Msg: fmt.Sprintf("front matter: no closing %s line; the whole file is read as body", delim)}
 	}
-	front, err = decodeFrontMatter(name, src[start:end], format)
+	// Limits first: the decoders' time and memory grow with size and depth.
+	block := src[start:end]
+	if len(block) > MaxFrontMatterSize {
+		return nil, format, end, &Error{Path: name, Line: 1, Msg: sizeOver(len(block))}
+	}
+	if line := NestedTooDeep(block, format, MaxFrontMatterDepth); line > 0 {
+		return nil, format, end, &Error{Path: name, Line: line,
+			Msg: fmt.Sprintf("front matter: nested more than %d levels deep; not read", MaxFrontMatterDepth)}
+	}
+	front, err = decodeFrontMatter(name, block, format)
 	return front, format, end, err
 }
 

@@ -2,6 +2,7 @@ package sources
 
 import (
 	"bytes"
+	"fmt"
 	"path"
 	"strconv"
 	"strings"
@@ -46,6 +47,10 @@ func parseMarkdown(doc *Document, src []byte, mdx bool) error {
 		doc.FrontKeys = frontKeyLines(src[:bodyStart], format, front)
 	}
 	body := src[bodyStart:]
+	if off := markdownDepth(body, MaxMarkdownDepth); off >= 0 {
+		return &Error{Path: doc.Path, Line: li.Line(bodyStart + off),
+			Msg: fmt.Sprintf("Markdown nested more than %d levels deep (block quotes and lists); skipped", MaxMarkdownDepth)}
+	}
 	w := &mdWalker{doc: doc, base: bodyStart, li: li, cur: -1}
 	var root ast.Node
 	if mdx {

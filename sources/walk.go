@@ -115,6 +115,7 @@ func (w *walker) dir(shown, target string, stack []string) {
 			continue
 		}
 		if !mode.IsRegular() {
+			w.special(p, mode)
 			continue
 		}
 		if _, ok := KindOf(name); !ok || w.excluded(p) || !w.included(p) {
@@ -130,10 +131,11 @@ func (w *walker) dir(shown, target string, stack []string) {
 }
 
 func (w *walker) file(p, target string, info fs.FileInfo) {
-	if _, ok := KindOf(p); !ok || w.excluded(p) || !w.included(p) {
+	if !info.Mode().IsRegular() {
+		w.special(p, info.Mode())
 		return
 	}
-	if !info.Mode().IsRegular() {
+	if _, ok := KindOf(p); !ok || w.excluded(p) || !w.included(p) {
 		return
 	}
 	if info.Size() > w.opts.MaxSize {
@@ -143,9 +145,33 @@ func (w *walker) file(p, target string, info fs.FileInfo) {
 	w.files = append(w.files, File{Path: p, Target: target, Size: info.Size(), ModTime: info.ModTime()})
 }
 
-// resolve follows the symlink at target (shown as p) to a path inside the
-// root. It reports false, after recording why, when the link dangles, loops
-// or leaves the root.
+// special reports a named pipe, socket or device at p, unless the walk
+// options leave p out anyway: reading one could block the build forever
+// or never end, so it is skipped, but never in silence.
+func (w *walker) special(p string, mode fs.FileMode) {
+	if w.excluded(p) || !w.included(p) {
+		return
+	}
+	what := "a special file"
+	switch {
+	case mode&fs.ModeNamedPipe != 0:
+		what = "a named pipe"
+	case mode&fs.ModeSocket != 0:
+		what = "a socket"
+	case mode&fs.ModeDevice != 0:
+		what = "a device"
+	case mode&fs.ModeIrregular != 0:
+		what = "an irregular file"
+	}
+	w.fail(p, "%s, not a regular file; skipped", what)
+}
+
+// resolve follows the symlink at target (shown as p) to its real path
+// inside the root. Every element of every link's target is resolved in
+// turn, so a link through a symlinked folder ("r/etc/passwd" where r
+// leads to /) is judged by where it really goes, not by its text. It
+// reports false, after recording why, when the link dangles, loops or
+// leaves the root.
 func (w *walker) resolve(p, target string) (string, fs.FileInfo, bool) {
 	rl, ok := w.fsys.(fs.ReadLinkFS)
 	if !ok {
@@ -156,34 +182,114 @@ func (w *walker) resolve(p, target string) (string, fs.FileInfo, bool) {
 		}
 		return target, info, true
 	}
-	cur := target
-	for hop := 0; hop < maxLinkHops; hop++ {
-		info, err := rl.Lstat(cur)
-		if err != nil {
-			w.fail(p, "broken symlink: %v", unwrapPath(err))
-			return "", nil, false
+	real, info, err := realPath(rl, target)
+	var esc *escapeError
+	switch {
+	case errors.As(err, &esc):
+		if esc.link == target {
+			w.fail(p, "symlink points outside the source root (%s); not followed", esc.dest)
+		} else {
+			w.fail(p, "symlink points outside the source root (through %s -> %s); not followed", esc.link, esc.dest)
 		}
-		if info.Mode()&fs.ModeSymlink == 0 {
-			return cur, info, true
-		}
-		dest, err := rl.ReadLink(cur)
-		if err != nil {
-			w.fail(p, "cannot read symlink: %v", unwrapPath(err))
-			return "", nil, false
-		}
-		if path.IsAbs(dest) || strings.HasPrefix(dest, "/") {
-			w.fail(p, "symlink points outside the source root (%s); not followed", dest)
-			return "", nil, false
-		}
-		next := path.Join(path.Dir(cur), dest)
-		if next == ".." || strings.HasPrefix(next, "../") {
-			w.fail(p, "symlink points outside the source root (%s); not followed", dest)
-			return "", nil, false
-		}
-		cur = next
+	case errors.Is(err, errLinkLoop):
+		w.fail(p, "symlink loop: more than %d links in a row", maxLinkHops)
+	case err != nil:
+		w.fail(p, "broken symlink: %v", unwrapPath(err))
+	default:
+		return real, info, true
 	}
-	w.fail(p, "symlink loop: more than %d links in a row", maxLinkHops)
 	return "", nil, false
+}
+
+var errLinkLoop = errors.New("symlink loop")
+
+// escapeError is a path whose resolution leaves the root: link's target
+// dest is absolute or climbs above the root.
+type escapeError struct{ link, dest string }
+
+func (e *escapeError) Error() string {
+	return fmt.Sprintf("%s -> %s leaves the source root", e.link, e.dest)
+}
+
+// realPath resolves name, a slash path from the root, element by
+// element: each element is looked at with Lstat under a prefix already
+// free of symlinks, and a symlink's target text is put in its place.
+// ".." is taken against the resolved prefix, which is what the kernel
+// does. It returns the real path and the final element's FileInfo.
+func realPath(rl fs.ReadLinkFS, name string) (string, fs.FileInfo, error) {
+	todo := strings.Split(name, "/")
+	cur := "." // resolved so far: a real folder under the root
+	var info fs.FileInfo
+	hops := 0
+	for len(todo) > 0 {
+		el := todo[0]
+		todo = todo[1:]
+		switch el {
+		case "", ".":
+			continue
+		case "..":
+			if cur == "." {
+				return "", nil, &escapeError{link: name, dest: name}
+			}
+			cur = path.Dir(cur)
+			info = nil
+			continue
+		}
+		next := join(cur, el)
+		fi, err := rl.Lstat(next)
+		if err != nil {
+			return "", nil, err
+		}
+		if fi.Mode()&fs.ModeSymlink == 0 {
+			cur, info = next, fi
+			continue
+		}
+		if hops++; hops > maxLinkHops {
+			return "", nil, errLinkLoop
+		}
+		dest, err := rl.ReadLink(next)
+		if err != nil {
+			return "", nil, err
+		}
+		if path.IsAbs(dest) || strings.HasPrefix(dest, "/") || strings.HasPrefix(dest, `\`) {
+			return "", nil, &escapeError{link: next, dest: dest}
+		}
+		// The target replaces the link, relative to the link's folder
+		// (cur); climbing above the root is caught at its "..".
+		if up := climbs(cur, dest); up {
+			return "", nil, &escapeError{link: next, dest: dest}
+		}
+		todo = append(strings.Split(dest, "/"), todo...)
+	}
+	if info == nil {
+		fi, err := rl.Lstat(cur)
+		if err != nil {
+			return "", nil, err
+		}
+		info = fi
+	}
+	return cur, info, nil
+}
+
+// climbs reports whether the relative link text dest, read in the real
+// folder dir, goes above the root at some point.
+func climbs(dir, dest string) bool {
+	depth := 0
+	if dir != "." {
+		depth = strings.Count(dir, "/") + 1
+	}
+	for _, el := range strings.Split(dest, "/") {
+		switch el {
+		case "", ".":
+		case "..":
+			if depth--; depth < 0 {
+				return true
+			}
+		default:
+			depth++
+		}
+	}
+	return false
 }
 
 func (w *walker) excluded(p string) bool {
@@ -222,25 +328,31 @@ func Match(glob, p string) bool {
 	return matchParts(strings.Split(strings.Trim(glob, "/"), "/"), strings.Split(p, "/"))
 }
 
+// matchParts matches glob elements g against path elements p. It fills
+// a table of which suffixes of g match which suffixes of p, so the time
+// is len(g) x len(p) element matches whatever the number of "**" (a
+// backtracking match takes exponential time on "**/**/**/.../x").
 func matchParts(g, p []string) bool {
-	for len(g) > 0 {
-		if g[0] == "**" {
-			for i := 0; i <= len(p); i++ {
-				if matchParts(g[1:], p[i:]) {
-					return true
-				}
+	// next[j] reports whether g[i+1:] matches p[j:]; cur is row i.
+	next := make([]bool, len(p)+1)
+	cur := make([]bool, len(p)+1)
+	next[len(p)] = true
+	for i := len(g) - 1; i >= 0; i-- {
+		cur[len(p)] = g[i] == "**" && next[len(p)]
+		for j := len(p) - 1; j >= 0; j-- {
+			if g[i] == "**" {
+				cur[j] = next[j] || cur[j+1]
+				continue
 			}
-			return false
+			ok := next[j+1]
+			if ok {
+				ok, _ = path.Match(g[i], p[j])
+			}
+			cur[j] = ok
 		}
-		if len(p) == 0 {
-			return false
-		}
-		if ok, _ := path.Match(g[0], p[0]); !ok {
-			return false
-		}
-		g, p = g[1:], p[1:]
+		next, cur = cur, next
 	}
-	return len(p) == 0
+	return next[0]
 }
 
 // ReadFile reads the walked file f from fsys, refusing to read past the

@@ -408,7 +408,9 @@ func (w *Watcher) chmod(rel string, wasDir bool) {
 	if wasDir || w.ignored(rel, false) {
 		return
 	}
-	f, err := os.Open(w.abs(rel))
+	// Through a root that symlinks cannot leave, and never a pipe or a
+	// device (opening a pipe waits for a writer).
+	f, err := w.openInside(rel)
 	if err != nil {
 		if errors.Is(err, fs.ErrPermission) {
 			w.unreadable[rel] = true
@@ -420,6 +422,29 @@ func (w *Watcher) chmod(rel string, wasDir bool) {
 		delete(w.unreadable, rel)
 		w.pending[rel] = true
 	}
+}
+
+// openInside opens the regular file rel for reading, resolved under the
+// root by the kernel (os.Root), so a symlink cannot lead it outside.
+func (w *Watcher) openInside(rel string) (*os.File, error) {
+	r, err := os.OpenRoot(w.root)
+	if err != nil {
+		return nil, err
+	}
+	defer r.Close()
+	fi, err := r.Lstat(filepath.FromSlash(rel))
+	if err != nil {
+		return nil, err
+	}
+	if fi.Mode()&fs.ModeSymlink != 0 {
+		if fi, err = r.Stat(filepath.FromSlash(rel)); err != nil {
+			return nil, err
+		}
+	}
+	if !fi.Mode().IsRegular() {
+		return nil, fmt.Errorf("%s: not a regular file", rel)
+	}
+	return r.Open(filepath.FromSlash(rel))
 }
 
 // addTree watches the folder rel and every folder below it that is not

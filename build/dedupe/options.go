@@ -34,8 +34,10 @@ type Options struct {
 	// count linear in its size.
 	MaxBucket int
 	// Workers is the number of goroutines hashing and verifying passages;
-	// 0 means runtime.GOMAXPROCS(0). The result does not depend on it.
-	Workers int
+	// 0 means runtime.GOMAXPROCS(0). The result does not depend on it,
+	// so it is not recorded with the settings (a manifest must not depend
+	// on the machine's core count).
+	Workers int `json:"-"`
 	// SetMemory bounds the bytes of shingle sets held at once while
 	// candidate pairs are verified (default 256 MiB). When the sets of all
 	// candidates do not fit, pairs are verified in rounds and a set may be

@@ -9,6 +9,7 @@ import (
 	"flag"
 	"fmt"
 	"io"
+	iofs "io/fs"
 	"os"
 	"os/signal"
 	"path"
@@ -92,7 +93,12 @@ func (sf *sourceFlags) options(src string) (build.Options, gates, error) {
 	var g gates
 	set := map[string]bool{}
 	sf.fs.Visit(func(f *flag.Flag) { set[f.Name] = true })
-	cfg, err := build.LoadConfig(os.DirFS(src))
+	dir, err := sources.OpenDir(src)
+	if err != nil {
+		return opts, g, fmt.Errorf("source %s: %v", src, unwrapPathErr(err))
+	}
+	cfg, err := build.LoadConfig(dir)
+	dir.Close()
 	if err != nil {
 		return opts, g, err
 	}
@@ -195,7 +201,15 @@ func compile(ctx context.Context, fs *flag.FlagSet, sf *sourceFlags, src string,
 	}
 	bar := newProgress(stderr)
 	opts.Progress = bar.update
-	res, err := build.Run(ctx, os.DirFS(src), opts)
+	// Every read goes through dir, which cannot be left by a symlink.
+	dir, err := sources.OpenDir(src)
+	if err != nil {
+		bar.finish()
+		fmt.Fprintf(stderr, "kbc %s: source %s: %v\n", fs.Name(), src, unwrapPathErr(err))
+		return nil, opts, g, exitFailure
+	}
+	res, err := build.Run(ctx, dir, opts)
+	dir.Close()
 	bar.finish()
 	if err != nil {
 		fmt.Fprintf(stderr, "kbc %s: %v\n", fs.Name(), err)
@@ -219,14 +233,19 @@ type session struct {
 	commitKnown bool
 }
 
+// toolKey names this kbc binary for the build cache and the up-to-date
+// stamp: the version and the binary's own build ID (build.BinaryID), so
+// that a changed binary with the same version string trusts neither.
+func toolKey() string { return "kbc " + version + " " + build.BinaryID() }
+
 // cacheFor returns the build cache: the one in memory when there is one,
-// else the one on disk when this kbc version made it, else a new one. A
-// cache that cannot be read, or was made by another kbc version, is
+// else the one on disk when this kbc binary made it, else a new one. A
+// cache that cannot be read, or was made by another kbc binary, is
 // reported once and replaced: it is never trusted. (Settings key the
 // cached passages inside it, so a settings change re-splits pages without
 // parsing them again.)
 func (s *session) cacheFor(stderr io.Writer) *build.Cache {
-	tool := "kbc " + version
+	tool := toolKey()
 	if s.cache.Fits(tool) {
 		return s.cache
 	}
@@ -238,7 +257,7 @@ func (s *session) cacheFor(stderr io.Writer) *build.Cache {
 		fmt.Fprintf(stderr, "kbc: build cache unreadable (%v); rebuilding it\n", err)
 		c = nil
 	case c != nil && !c.Fits(tool):
-		fmt.Fprintf(stderr, "kbc: build cache %s was made by another kbc version; rebuilding it\n", bundle.CacheDir(s.out))
+		fmt.Fprintf(stderr, "kbc: build cache %s was made by another kbc binary; rebuilding it\n", bundle.CacheDir(s.out))
 		c = nil
 	}
 	if c == nil {
@@ -365,10 +384,14 @@ func runBuild(args []string, stdout, stderr io.Writer) int {
 	var walked []sources.File
 	looked := time.Now()
 	if opts, g, err := sf.options(src); err == nil && !*strict {
-		extra := fmt.Sprintf("%s\x00%s %t\x00%s", version, sess.commit, sess.dirty, os.Getenv("SOURCE_DATE_EPOCH"))
-		inputs, walked = build.InputsDigest(os.DirFS(src), opts, extra)
-		if code, ok := upToDate(*out, src, inputs, walked, g, *asJSON, start, stdout, stderr); ok {
-			return code
+		extra := fmt.Sprintf("%s\x00%s %t\x00%s", toolKey(), sess.commit, sess.dirty, os.Getenv("SOURCE_DATE_EPOCH"))
+		if dir, err := sources.OpenDir(src); err == nil {
+			inputs, walked = build.InputsDigest(dir, opts, extra)
+			code, ok := upToDate(*out, src, dir, inputs, walked, g, *asJSON, start, stdout, stderr)
+			dir.Close()
+			if ok {
+				return code
+			}
 		}
 	}
 	ctx, stop := interrupted()
@@ -428,13 +451,13 @@ func runBuild(args []string, stdout, stderr io.Writer) int {
 // code. Files changed within a second of the last look are not trusted
 // by their size and time alone: their bytes must be those the last build
 // read (Stamp.Racy), or the build runs.
-func upToDate(out, src, inputs string, walked []sources.File, g gates, asJSON bool, start time.Time, stdout, stderr io.Writer) (int, bool) {
+func upToDate(out, src string, dir *sources.Dir, inputs string, walked []sources.File, g gates, asJSON bool, start time.Time, stdout, stderr io.Writer) (int, bool) {
 	st := bundle.ReadStamp(out)
 	if st == nil || st.Inputs != inputs || bundle.ManifestHash(out) != st.Manifest {
 		return 0, false
 	}
 	for _, f := range build.Racy(walked, st.Read) {
-		data, err := os.ReadFile(filepath.Join(src, filepath.FromSlash(f.Path)))
+		data, err := iofs.ReadFile(dir, f.Target)
 		sum := sha256.Sum256(data)
 		if err != nil || st.Racy[f.Path] != hex.EncodeToString(sum[:]) {
 			return 0, false

@@ -6,7 +6,11 @@ import (
 	"flag"
 	"fmt"
 	"io"
+	"os"
+	"path/filepath"
 	"strings"
+
+	"github.com/kbc-project/kbc/bundle"
 )
 
 // newFlags returns a flag set whose -h output shows usage and an example.
@@ -89,6 +93,15 @@ func srcAndOut(fs *flag.FlagSet, pos []string, out string, stderr io.Writer) (st
 	}
 	if out == "" {
 		return "", badUsage(fs, stderr, "missing -o OUT")
+	}
+	// Before any work: OUT may be replaced only when it is a bundle. (A
+	// missing SRC is bad usage, reported first by the command.)
+	if st, err := os.Stat(pos[0]); err != nil || !st.IsDir() {
+		return pos[0], -1
+	}
+	if err := bundle.CheckTarget(filepath.Clean(out)); err != nil {
+		fmt.Fprintf(stderr, "kbc %s: -o %s: %v\n", fs.Name(), out, err)
+		return "", exitFailure
 	}
 	return pos[0], -1
 }

@@ -7,9 +7,11 @@ import (
 	"io"
 	"os"
 	"os/signal"
+	"path/filepath"
 	"strings"
 	"syscall"
 
+	"github.com/kbc-project/kbc/bundle"
 	"github.com/kbc-project/kbc/bundle/store"
 	"github.com/kbc-project/kbc/internal/printable"
 )
@@ -117,6 +119,11 @@ func runPull(args []string, stdout, stderr io.Writer) int {
 	}
 	if *tag != "" && *id != "" {
 		return badUsage(fs, stderr, "give --tag or --id, not both")
+	}
+	// Before any download: DIR may be replaced only when it is a bundle.
+	if err := bundle.CheckTarget(filepath.Clean(pos[1])); err != nil {
+		fmt.Fprintf(stderr, "kbc pull: %s: %v\n", pos[1], err)
+		return exitFailure
 	}
 	ctx, cancel := storeContext()
 	defer cancel()
