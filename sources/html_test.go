@@ -348,7 +348,9 @@ func TestHTMLHeadings(t *testing.T) {
 		{"own id", `<h2 id="own">T</h2>`, []string{"h2 T #own ^-1"}},
 		{"sphinx section", `<section id="sec"><span id="label"></span><h2>T<a class="headerlink" href="#sec">¶</a></h2><p>x</p></section>`,
 			[]string{"h2 T #sec ^-1"}},
-		{"heading not first", `<section id="sec"><p>intro</p><h2>T</h2></section>`, []string{"h2 T # ^-1"}},
+		// Not the section's first content: the section's id is the nearest
+		// place above it a link can land on.
+		{"heading not first", `<section id="sec"><p>intro</p><h2>T</h2></section>`, []string{"h2 T #sec ^-1"}},
 		{"docbook nested divs", `<div class="sect1" id="FUNCS"><div class="titlepage"><div><div><h2 class="title">T</h2></div></div></div></div>`,
 			[]string{"h2 T #FUNCS ^-1"}},
 		{"anchor before", `<p>x</p><a name="before"></a><h2>T</h2>`, []string{"h2 T #before ^-1"}},
