@@ -583,15 +583,58 @@ func (sp *splitter) units(body string, limit, target int, prose bool) []unit {
 				if n := sp.tok.Count(s); n <= limit {
 					out = append(out, unit{off + r[0], off + r[1], s, n})
 				} else {
-					out = sp.pieceUnits(out, body, off+r[0], off+r[1], target)
+					out = sp.wordUnits(out, body, off+r[0], off+r[1], limit, target)
 				}
 			}
 		} else {
-			out = sp.pieceUnits(out, body, off, end, target)
+			out = sp.wordUnits(out, body, off, end, limit, target)
 		}
 		off = end
 	}
 	return out
+}
+
+// wordUnits appends units for body[from:to] made of whole words (a word is
+// a run of characters other than white space, with the white space after
+// it), each of about target tokens; only a word over limit on its own is
+// cut inside, at tokenizer pieces.
+func (sp *splitter) wordUnits(out []unit, body string, from, to, limit, target int) []unit {
+	start, n := from, 0
+	for i := from; i < to; {
+		j := i
+		for j < to && !isSpaceByte(body[j]) {
+			j++
+		}
+		for j < to && isSpaceByte(body[j]) {
+			j++
+		}
+		c := sp.tok.Count(body[i:j])
+		if c > limit {
+			if i > start {
+				out = append(out, unit{start, i, body[start:i], sp.tok.Count(body[start:i])})
+			}
+			out = sp.pieceUnits(out, body, i, j, target)
+			start, n, i = j, 0, j
+			continue
+		}
+		if n+c > target && i > start {
+			out = append(out, unit{start, i, body[start:i], sp.tok.Count(body[start:i])})
+			start, n = i, 0
+		}
+		n += c
+		i = j
+	}
+	if start < to {
+		out = append(out, unit{start, to, body[start:to], sp.tok.Count(body[start:to])})
+	}
+	return out
+}
+
+// isSpaceByte reports whether c is ASCII white space. Normalised text has
+// no other spaces between words; code keeps its own, and a line of code
+// with none is one word.
+func isSpaceByte(c byte) bool {
+	return c == ' ' || c == '\t' || c == '\n' || c == '\r' || c == '\f' || c == '\v'
 }
 
 // pieceUnits appends units for body[from:to], made of whole tokenizer

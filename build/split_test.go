@@ -521,6 +521,9 @@ func FuzzSplit(f *testing.F) {
 	}
 	f.Add("# A\n\ntext\n\n## B\n\n```go\ncode\n```\n\n| a | b\n| c | d\n", uint16(20), uint16(64), uint16(5))
 	f.Add("x\n\n###### deep\n\n# top\n\n- item\n> quote\n", uint16(1), uint16(64), uint16(0))
+	// One line over the budget: cut at words, parts in reading order.
+	f.Add("# Long\n\n"+strings.Repeat("don't re-run pick_batch_size 1234567 näher ", 60)+"\n", uint16(40), uint16(64), uint16(10))
+	f.Add("# W\n\n"+strings.Repeat("abcdefghij", 80)+" tail\n", uint16(20), uint16(0), uint16(0))
 	tok := newTestTokenizer(f)
 	f.Fuzz(func(t *testing.T, src string, aim, maxT, minT uint16) {
 		s := DefaultSettings()
@@ -537,11 +540,49 @@ func FuzzSplit(f *testing.F) {
 			}
 			ps := Split(doc, tok, s)
 			checkPassages(t, doc, ps, tok, s)
+			checkWholeWords(t, doc, ps, tok, s)
 			if again := Split(doc, tok, s); !reflect.DeepEqual(again, ps) {
 				t.Fatalf("second split differs")
 			}
 		}
 	})
+}
+
+// checkWholeWords asserts that no cut falls inside a word: every word
+// (run of non-space characters) of a passage is a word of a block or a
+// heading, or a fence, unless it is part of a word that is over the budget
+// on its own.
+func checkWholeWords(t *testing.T, doc *sources.Document, ps []Passage, tok *Tokenizer, s Settings) {
+	t.Helper()
+	words := map[string]bool{}
+	var long []string
+	for _, b := range doc.Blocks {
+		for _, w := range strings.Fields(b.Text) {
+			words[w] = true
+			if tok.Count(w) > s.MaxTokens/2 {
+				long = append(long, w)
+			}
+		}
+	}
+	for _, h := range doc.Headings {
+		for _, w := range strings.Fields(h.Text) {
+			words[w] = true
+		}
+	}
+	for _, p := range ps {
+		for _, w := range strings.Fields(p.Text) {
+			if words[w] || strings.HasPrefix(w, "```") {
+				continue
+			}
+			inLong := false
+			for _, l := range long {
+				inLong = inLong || strings.Contains(l, w)
+			}
+			if !inLong {
+				t.Fatalf("passage at line %d holds %q, a cut inside a word", p.Line, w)
+			}
+		}
+	}
 }
 
 func ExampleSplit() {
