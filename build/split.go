@@ -59,12 +59,19 @@ import (
 // passages, not to make big ones, and stopping at the aim keeps joined
 // passages the size of packed ones. The joined passage keeps the trail and anchor of its first
 // section; the heading of each section joined to it (and of any empty
-// heading in between) is a line of its own in the text, so nothing is lost.
+// heading in between) is a line of its own in the text, so nothing is lost,
+// and each of those headings that has an anchor of its own is listed in
+// Passage.Terms with it, so the joined section can still be found and
+// cited at its own place.
 //
 // # Fields
 //
 // Passage.Heading is the heading trail of the first section (empty for the
 // preamble), Anchor its heading's anchor, Title and Path the document's.
+// Terms lists, in order, the defined terms (blocks with an anchor) that
+// start in the passage and the joined headings above, each with its
+// anchor; an anchor equal to the passage's own, or listed already, is
+// left out.
 // Line is the section heading's line when the passage starts a section,
 // else its first block's line; EndLine is its last block's end line. Parts
 // of a cut block get their own lines, counted from the block's first line
@@ -147,6 +154,10 @@ type item struct {
 	measured
 	line, endLine int
 	cut           bool
+	// term is set when the item starts a defined term (a block with an
+	// anchor) or is the heading of a section joined to another: the text
+	// and anchor a passage holding the item lists in Passage.Terms.
+	term Term
 }
 
 // run is a sequence of items joined by blank lines, with its exact count
@@ -213,7 +224,7 @@ func (sp *splitter) sections() []*section {
 		}
 		sec := &section{heading: i, parent: p, line: h.Line}
 		if t := strings.TrimSpace(h.Text); t != "" {
-			sec.title = &item{measured: sp.tok.measure(t), line: h.Line, endLine: h.Line}
+			sec.title = &item{measured: sp.tok.measure(t), line: h.Line, endLine: h.Line, term: Term{Text: t, Anchor: h.Anchor}}
 		}
 		secs[i+1] = sec
 	}
@@ -229,7 +240,11 @@ func (sp *splitter) sections() []*section {
 		for _, b := range sec.blocks {
 			if t := renderBlock(b); t != "" {
 				kept = append(kept, b)
-				sec.add(item{measured: sp.tok.measure(t), line: b.Line, endLine: max(b.EndLine, b.Line)})
+				it := item{measured: sp.tok.measure(t), line: b.Line, endLine: max(b.EndLine, b.Line)}
+				if b.Anchor != "" {
+					it.term = Term{Text: termText(b.Text), Anchor: b.Anchor}
+				}
+				sec.add(it)
 			}
 		}
 		sec.blocks = kept
@@ -363,6 +378,9 @@ func (sp *splitter) passages(secs []*section, g *group) []Passage {
 		for _, it := range r.items {
 			p.Split = p.Split || it.cut
 			p.EndLine = max(p.EndLine, it.endLine, p.Line)
+			if it.term.Anchor != "" && it.term.Anchor != p.Anchor && !slices.ContainsFunc(p.Terms, func(t Term) bool { return t.Anchor == it.term.Anchor }) {
+				p.Terms = append(p.Terms, it.term)
+			}
 		}
 		out[i] = p
 	}
@@ -391,9 +409,31 @@ func (sp *splitter) items(sec *section) []item {
 			out = append(out, it)
 			continue
 		}
-		out = append(out, sp.cutBlock(sec.blocks[i])...)
+		parts := sp.cutBlock(sec.blocks[i])
+		if len(parts) > 0 {
+			parts[0].term = it.term
+		}
+		out = append(out, parts...)
 	}
 	return out
+}
+
+// maxTermBytes bounds the text of a term: a signature with many
+// parameters is cut at a word near this length.
+const maxTermBytes = 200
+
+// termText returns the text of a defined term's block on one line, cut
+// at a word when it is long.
+func termText(s string) string {
+	s = strings.Join(strings.Fields(s), " ")
+	if len(s) <= maxTermBytes {
+		return s
+	}
+	cut := strings.LastIndexByte(s[:maxTermBytes], ' ')
+	if cut <= 0 {
+		cut = runeStart(s, maxTermBytes, 0)
+	}
+	return s[:cut]
 }
 
 // pack groups items into runs, each a passage: greedily within the aim, or
