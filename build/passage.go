@@ -15,7 +15,7 @@ type Passage struct {
 	EndLine int      `json:"end_line"`         // last source line
 	Tokens  int      `json:"tokens"`           // BPE tokens in Text
 	Hash    string   `json:"hash"`             // SHA-256 (hex) of Text
-	Split   bool     `json:"split,omitempty"`  // a block over the budget was cut at line boundaries
+	Split   bool     `json:"split,omitempty"`  // a block over the budget was cut (at lines, else words)
 
 	// Freshness, inherited from the passage's document (see build/fresh).
 	Updated       time.Time  `json:"updated,omitzero"`         // last change
@@ -33,8 +33,10 @@ type Passage struct {
 
 	// Terms are the defined terms that start inside this passage: the
 	// term of a definition-list entry or an API signature whose element
-	// carries its own id. They are searched like headings, and each can be
-	// cited at its own anchor, finer than the section's.
+	// carries its own id; and the headings of the sections joined into it
+	// (see Split), so that a small section stays addressable. They are
+	// searched like headings, and each can be cited at its own anchor,
+	// finer than the section's.
 	Terms []Term `json:"terms,omitempty"`
 }
 

@@ -36,9 +36,10 @@ import (
 // s.MinTokens), never cutting inside a block, and a short last passage joins
 // the one before when they fit s.MaxTokens together. A single block over
 // s.MaxTokens is cut: code and tables at line ends (never inside a table
-// row), prose at line ends, then at sentence ends; a line that is over the
-// budget on its own (minified JSON, say) at word and then at character
-// boundaries. The parts of a cut block aim at s.AimTokens, every part of a
+// row), prose at line ends, then at sentence ends; a line or sentence that
+// is over the budget on its own at word boundaries (white space), and only
+// a word over the budget on its own (minified JSON, say) at tokenizer
+// pieces and then at character boundaries. The parts of a cut block aim at s.AimTokens, every part of a
 // code block is fenced with its language, and the passages holding them are
 // marked Split. Token counts are exact: each block is counted once, and the
 // count of blocks joined by blank lines follows exactly from theirs (see
