@@ -608,6 +608,8 @@ func FuzzParseHTML(f *testing.F) {
 		`<section id=s><span id=t></span><h2>x</h2></section>`, "<p>\x00\r\n\xff</p>", `<div hidden><main><p>x`,
 		`<p>http://a.b https://</p>`, `<br/><br/><img alt="a b"/>`, `<caption>c</caption>`, `<table><caption>c<tr><td>x</caption>`,
 		"<h1>¶</h1 >0", "\v", "<p>\u3000</p>", // found by fuzzing
+		`<div id=r><div class=titlepage></div><div><h2>n</h2></div></div>`, `<div class="note"><h3>Note</h3><p>x</div><p>y`,
+		`<dl><dt id=a>t<dd><a href=x>d</a><dt><a id=b></a>u<dd>v</dl>`, `<blockquote><h2 id=q>q</h2></blockquote><h2>r</h2>`,
 	} {
 		f.Add([]byte(s))
 	}
