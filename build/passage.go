@@ -33,10 +33,8 @@ type Passage struct {
 
 	// Terms are the defined terms that start inside this passage: the
 	// term of a definition-list entry or an API signature whose element
-	// carries its own id; and the headings of the sections joined into it
-	// (see Split), so that a small section stays addressable. They are
-	// searched like headings, and each can be cited at its own anchor,
-	// finer than the section's.
+	// carries its own id. They are searched like headings, and each can be
+	// cited at its own anchor, finer than the section's.
 	Terms []Term `json:"terms,omitempty"`
 }
 
