@@ -34,7 +34,12 @@ import (
 // greedily: blocks are added to a passage while it stays within
 // s.AimTokens (or within s.MaxTokens while the passage is under
 // s.MinTokens), never cutting inside a block, and a short last passage joins
-// the one before when they fit s.MaxTokens together. A single block over
+// the one before when they fit s.MaxTokens together. A defined term does
+// not start a passage of its own: measured on the question sets of the real
+// corpora, starting one at each term raised recip_rank by 0.005 on Python's
+// index entries and by 0.10 on Git's glossary (87 questions), lowered it by
+// 0.007 on Python's FAQ, and made 38% more passages of the Python docs,
+// which a clean build pays for; its terms are listed instead (Terms). A single block over
 // s.MaxTokens is cut: code and tables at line ends (never inside a table
 // row), prose at line ends, then at sentence ends; a line or sentence that
 // is over the budget on its own at word boundaries (white space), and only
