@@ -15,13 +15,17 @@ import (
 // differs in one cell. Both pages keep their passages.
 func TestBlockDivergence(t *testing.T) {
 	para := "Each reefer unit runs a pre-trip test before loading: the set point is held for %s minutes, the defrost cycle runs once, and the alarm log is cleared and printed for the driver's file."
+	// Each page packs the copied paragraph and row with text of its own,
+	// in the same section, so the passages as wholes share too little.
 	page := func(n, own, row string) []byte {
-		return []byte("# Pre-trip checks\n\n## Test\n\n" + strings.ReplaceAll(para, "%s", n) + "\n\n## " + own + "\n\n" +
-			"Ask the " + own + " desk for the local key code.\n\n## Limits\n\n| load | set point | hold |\n|---|---|---|\n" + row + "\n")
+		return []byte("# Pre-trip checks\n\n" + strings.ReplaceAll(para, "%s", n) + "\n\n" + own + "\n\n" +
+			"| load | set point | hold |\n|---|---|---|\n" + row + "\n")
 	}
 	fsys := fstest.MapFS{
-		"fleet/pretrip.md":        {Data: page("15", "Fleet", "| frozen | -25 °C | 45 minutes |")},
-		"depots/north/pretrip.md": {Data: page("10", "North", "| frozen | -25 °C | 35 minutes |")},
+		"fleet/pretrip.md": {Data: page("15", "The fleet desk keeps the spare data loggers in the cabinet by the tachograph office, signed out on the clipboard, and collects them again at the end of every trunking week.",
+			"| frozen | -25 °C | 45 minutes |")},
+		"depots/north/pretrip.md": {Data: page("10", "At Vennholm the yard marshal walks each trailer with the driver, photographs the seal numbers for the gate system and radios the bay allocation before the unit is plugged in.",
+			"| frozen | -25 °C | 35 minutes |")},
 	}
 	for _, f := range fsys {
 		f.ModTime = time.Date(2026, 11, 2, 9, 0, 0, 0, time.UTC)
@@ -33,7 +37,7 @@ func TestBlockDivergence(t *testing.T) {
 		t.Fatal(err)
 	}
 	if len(res.Passages) != 2 {
-		t.Fatalf("want one packed passage per page, got %d", len(res.Passages))
+		t.Fatalf("want one passage per page, got %d", len(res.Passages))
 	}
 	var got []string
 	for _, d := range res.Duplicates.Divergent {

@@ -31,7 +31,7 @@ import (
 // found out before anything in it is used. Every header carries the
 // layout version and the cache key, and all files must agree on them.
 const (
-	cacheLayout = 4 // 4: documents carry their hidden text, secrets and lints
+	cacheLayout = 5 // 4: documents carry their hidden text, secrets and lints; 5: blocks carry defined terms (Block.Anchor), passages their Terms
 	cacheShards = 16
 	stateFile   = "state.gob"
 )

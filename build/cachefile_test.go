@@ -225,8 +225,10 @@ func TestCacheSettingsChange(t *testing.T) {
 	fsys := cachedTree()
 	var long strings.Builder
 	long.WriteString("# Yard rules\n")
-	for i := range 8 {
-		fmt.Fprintf(&long, "\n## Rule %d\n\nDrivers keep to lane %d in the yard, stop at the white line before the dock, and wait for the marshal's signal before reversing a reefer trailer onto bay %d.\n", i, i, i)
+	// One section over the limit, so that the aim decides how it is
+	// packed (sections with anchors of their own are never joined).
+	for i := range 20 {
+		fmt.Fprintf(&long, "\nRule %d. Drivers keep to lane %d in the yard, stop at the white line before the dock, and wait for the marshal's signal before reversing a reefer trailer onto bay %d.\n", i, i, i)
 	}
 	fsys["yard/rules.md"] = &fstest.MapFile{ModTime: time.Now().Add(-time.Hour), Data: []byte(long.String())}
 	c := NewCache("test")

@@ -15,7 +15,7 @@ type Passage struct {
 	EndLine int      `json:"end_line"`         // last source line
 	Tokens  int      `json:"tokens"`           // BPE tokens in Text
 	Hash    string   `json:"hash"`             // SHA-256 (hex) of Text
-	Split   bool     `json:"split,omitempty"`  // a block over the budget was cut at line boundaries
+	Split   bool     `json:"split,omitempty"`  // a block over the budget was cut (at lines, else words)
 
 	// Freshness, inherited from the passage's document (see build/fresh).
 	Updated       time.Time  `json:"updated,omitzero"`         // last change

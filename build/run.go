@@ -433,16 +433,17 @@ func stamp(p *Passage, info fresh.Info) {
 	p.Owner, p.Audience = info.Owner, info.Audience
 }
 
+// sortPassages orders passages by path and line. The sort is stable and
+// Split gives each page's passages in reading order, so passages that
+// start on the same line (the parts of a long one-line paragraph, or the
+// sections of a page written on one line) stay in reading order.
 func sortPassages(ps []Passage) {
 	sort.SliceStable(ps, func(i, j int) bool {
 		a, b := ps[i], ps[j]
 		if a.Path != b.Path {
 			return a.Path < b.Path
 		}
-		if a.Line != b.Line {
-			return a.Line < b.Line
-		}
-		return a.ID < b.ID
+		return a.Line < b.Line
 	})
 }
 

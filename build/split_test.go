@@ -25,6 +25,7 @@ var update = flag.Bool("update", false, "rewrite the golden files in testdata/")
 //
 //	%% aim=40 max=80 min=10   settings for the golden test (first line only)
 //	# Title ... ###### Title  a heading; its anchor is the text slugged
+//	# Title {-}               a heading with no anchor
 //	```lang ... ```           a code block, fence lines included in its lines
 //	| a | b                   table rows (consecutive lines)
 //	- item                    a list item
@@ -93,7 +94,9 @@ func sampleDoc(path, src string) *sources.Document {
 				parent = stack[len(stack)-1]
 			}
 			anchor := sampleSlug(text)
-			if k := anchors[anchor]; k > 0 {
+			if t, ok := strings.CutSuffix(text, " {-}"); ok {
+				text, anchor = t, ""
+			} else if k := anchors[anchor]; k > 0 {
 				anchors[anchor]++
 				anchor += "-" + strconv.Itoa(k)
 			} else {
@@ -290,37 +293,41 @@ func TestSplitRules(t *testing.T) {
 			// 8 tokens a sentence (9 as estimated alone, with its space).
 			[]shape{{"prose", 1, 3, true, "The proxy"}, {"prose", 3, 3, true, "The proxy"}, {"prose", 3, 3, true, "The proxy"}, {"prose", 3, 3, true, "The proxy"}}},
 		{"tiny section joins the next sibling",
-			"# A\n\n## B\n\nShort.\n\n## C\n\n" + long(60) + "\n",
+			"# A {-}\n\n## B {-}\n\nShort.\n\n## C {-}\n\n" + long(60) + "\n",
 			budget(100, 200, 20),
-			[]shape{{"b", 3, 9, false, "Short.\n\nC\n\nalpha"}}},
+			[]shape{{"", 3, 9, false, "Short.\n\nC\n\nalpha"}}},
 		{"tiny section joins its child",
-			"# A\n\n## B\n\nShort.\n\n### B1\n\n" + long(60) + "\n\n## C\n\n" + long(60) + "\n",
+			"# A {-}\n\n## B {-}\n\nShort.\n\n### B1 {-}\n\n" + long(60) + "\n\n## C {-}\n\n" + long(60) + "\n",
 			budget(100, 200, 20),
-			[]shape{{"b", 3, 9, false, "Short.\n\nB1\n\nalpha"}, {"c", 11, 13, false, "alpha"}}},
+			[]shape{{"", 3, 9, false, "Short.\n\nB1\n\nalpha"}, {"", 11, 13, false, "alpha"}}},
 		{"tiny last section joins the previous sibling",
-			"# A\n\n## B\n\n" + long(60) + "\n\n## C\n\nShort.\n\n# D\n\n" + long(60) + "\n",
+			"# A {-}\n\n## B {-}\n\n" + long(60) + "\n\n## C {-}\n\nShort.\n\n# D {-}\n\n" + long(60) + "\n",
 			budget(100, 200, 20),
-			[]shape{{"b", 3, 9, false, "alpha"}, {"d", 11, 13, false, "alpha"}}},
+			[]shape{{"", 3, 9, false, "alpha"}, {"", 11, 13, false, "alpha"}}},
 		{"tiny last child joins its parent's passage",
-			"# A\n\n## B\n\n" + long(60) + "\n\n### B1\n\nShort.\n\n## C\n\n" + long(60) + "\n",
+			"# A {-}\n\n## B {-}\n\n" + long(60) + "\n\n### B1 {-}\n\nShort.\n\n## C {-}\n\n" + long(60) + "\n",
 			budget(100, 200, 20),
-			[]shape{{"b", 3, 9, false, "alpha"}, {"c", 11, 13, false, "alpha"}}},
+			[]shape{{"", 3, 9, false, "alpha"}, {"", 11, 13, false, "alpha"}}},
 		{"no join across parents",
-			"# A\n\n## A1\n\n" + long(60) + "\n\n### A1a\n\n" + long(60) + "\n\n## A2\n\nShort.\n\n# B\n\n" + long(60) + "\n",
+			"# A {-}\n\n## A1 {-}\n\n" + long(60) + "\n\n### A1a {-}\n\n" + long(60) + "\n\n## A2 {-}\n\nShort.\n\n# B {-}\n\n" + long(60) + "\n",
 			budget(100, 200, 20),
-			[]shape{{"a1", 3, 5, false, "alpha"}, {"a1a", 7, 9, false, "alpha"}, {"a2", 11, 13, false, "Short."}, {"b", 15, 17, false, "alpha"}}},
+			[]shape{{"", 3, 5, false, "alpha"}, {"", 7, 9, false, "alpha"}, {"", 11, 13, false, "Short."}, {"", 15, 17, false, "alpha"}}},
 		{"join stops at the aim",
-			"# A\n\n## B\n\nShort.\n\n## C\n\n" + long(98) + "\n",
+			"# A {-}\n\n## B {-}\n\nShort.\n\n## C {-}\n\n" + long(98) + "\n",
 			budget(100, 200, 20),
-			[]shape{{"b", 3, 5, false, "Short."}, {"c", 7, 9, false, "alpha"}}},
+			[]shape{{"", 3, 5, false, "Short."}, {"", 7, 9, false, "alpha"}}},
 		{"empty heading makes no passage but stays in the trail",
 			"# A\n\n## B\n\n### B1\n\n" + long(60) + "\n",
 			budget(100, 200, 0),
 			[]shape{{"b1", 5, 7, false, "alpha"}}},
 		{"tiny section joins over an empty heading",
-			"# A\n\nShort.\n\n## B\n\n### B1\n\n" + long(60) + "\n",
+			"# A {-}\n\nShort.\n\n## B {-}\n\n### B1 {-}\n\n" + long(60) + "\n",
 			budget(100, 200, 20),
-			[]shape{{"a", 1, 9, false, "Short.\n\nB\n\nB1\n\nalpha"}}},
+			[]shape{{"", 1, 9, false, "Short.\n\nB\n\nB1\n\nalpha"}}},
+		{"tiny section with its own anchor is not joined",
+			"# A\n\n## B\n\nShort.\n\n## C\n\n" + long(60) + "\n\n## D {-}\n\nTiny.\n",
+			budget(100, 200, 20),
+			[]shape{{"b", 3, 5, false, "Short."}, {"c", 7, 13, false, "alpha"}}},
 	}
 	for _, tt := range tests {
 		t.Run(tt.name, func(t *testing.T) {
@@ -521,6 +528,9 @@ func FuzzSplit(f *testing.F) {
 	}
 	f.Add("# A\n\ntext\n\n## B\n\n```go\ncode\n```\n\n| a | b\n| c | d\n", uint16(20), uint16(64), uint16(5))
 	f.Add("x\n\n###### deep\n\n# top\n\n- item\n> quote\n", uint16(1), uint16(64), uint16(0))
+	// One line over the budget: cut at words, parts in reading order.
+	f.Add("# Long\n\n"+strings.Repeat("don't re-run pick_batch_size 1234567 näher ", 60)+"\n", uint16(40), uint16(64), uint16(10))
+	f.Add("# W\n\n"+strings.Repeat("abcdefghij", 80)+" tail\n", uint16(20), uint16(0), uint16(0))
 	tok := newTestTokenizer(f)
 	f.Fuzz(func(t *testing.T, src string, aim, maxT, minT uint16) {
 		s := DefaultSettings()
@@ -537,11 +547,49 @@ func FuzzSplit(f *testing.F) {
 			}
 			ps := Split(doc, tok, s)
 			checkPassages(t, doc, ps, tok, s)
+			checkWholeWords(t, doc, ps, tok, s)
 			if again := Split(doc, tok, s); !reflect.DeepEqual(again, ps) {
 				t.Fatalf("second split differs")
 			}
 		}
 	})
+}
+
+// checkWholeWords asserts that no cut falls inside a word: every word
+// (run of non-space characters) of a passage is a word of a block or a
+// heading, or a fence, unless it is part of a word that is over the budget
+// on its own.
+func checkWholeWords(t *testing.T, doc *sources.Document, ps []Passage, tok *Tokenizer, s Settings) {
+	t.Helper()
+	words := map[string]bool{}
+	var long []string
+	for _, b := range doc.Blocks {
+		for _, w := range strings.Fields(b.Text) {
+			words[w] = true
+			if tok.Count(w) > s.MaxTokens/2 {
+				long = append(long, w)
+			}
+		}
+	}
+	for _, h := range doc.Headings {
+		for _, w := range strings.Fields(h.Text) {
+			words[w] = true
+		}
+	}
+	for _, p := range ps {
+		for _, w := range strings.Fields(p.Text) {
+			if words[w] || strings.HasPrefix(w, "```") {
+				continue
+			}
+			inLong := false
+			for _, l := range long {
+				inLong = inLong || strings.Contains(l, w)
+			}
+			if !inLong {
+				t.Fatalf("passage at line %d holds %q, a cut inside a word", p.Line, w)
+			}
+		}
+	}
 }
 
 func ExampleSplit() {

@@ -383,21 +383,20 @@ func listEntries(entries []fs.DirEntry) string {
 	return strings.Join(names, ", ")
 }
 
-// sortedOrder returns the indexes of ps ordered by path, line and id.
+// sortedOrder returns the indexes of ps ordered by path and line. Ties
+// keep the order of ps, which build.Run gives in reading order: the parts
+// of a one-line paragraph must not be shuffled by their ids.
 func sortedOrder(ps []build.Passage) []int {
 	order := make([]int, len(ps))
 	for i := range order {
 		order[i] = i
 	}
-	slices.SortFunc(order, func(a, b int) int {
+	slices.SortStableFunc(order, func(a, b int) int {
 		pa, pb := &ps[a], &ps[b]
 		if c := strings.Compare(pa.Path, pb.Path); c != 0 {
 			return c
 		}
-		if pa.Line != pb.Line {
-			return pa.Line - pb.Line
-		}
-		return strings.Compare(pa.ID, pb.ID)
+		return pa.Line - pb.Line
 	})
 	return order
 }

@@ -107,6 +107,11 @@ type Block struct {
 	End     int       `json:"end"`            // byte offset just past the block
 	Line    int       `json:"line"`           // 1-based source line of Start
 	EndLine int       `json:"end_line"`       // 1-based source line of the block's last byte
+	// Anchor is set only on the block of a defined term (a definition-list
+	// term or an API signature) whose element carries its own id: the
+	// fragment a link to that definition lands on, finer than the
+	// section's. The block's text is the term.
+	Anchor string `json:"anchor,omitempty"`
 }
 
 // Trail returns the heading trail of heading i, outermost first, or nil when

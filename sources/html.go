@@ -607,6 +607,9 @@ func (t *htmlTree) stats() {
 		if htmlHeading(n.tag) {
 			n.flags |= hHasHeading
 		}
+		if n.tag == atom.Dl {
+			t.definitionLinks(i)
+		}
 		p := &nodes[n.parent]
 		p.chars += n.chars
 		p.linkChars += n.linkChars
@@ -614,6 +617,38 @@ func (t *htmlTree) stats() {
 		p.flags |= n.flags & hHasHeading
 		if n.flags&hText == 0 && (htmlBlock(n.tag) || n.flags&hHasBlock != 0) {
 			p.flags |= hHasBlock
+		}
+	}
+}
+
+// definitionLinks takes out of the link counts of definition list i the
+// links that are the whole text of a definition whose term is not a link
+// (an abbreviation expanded as a link to its source): they are content,
+// and without this a page that is such a list is dropped as a link list.
+// A list whose terms are links (a table of contents) is left as it is. It
+// runs in stats, when the list's children are counted and the list's own
+// counts are not yet added to its parent.
+func (t *htmlTree) definitionLinks(i int) {
+	nodes := t.nodes
+	n := &nodes[i]
+	term := -1 // the dt before the current dd
+	for c := i + 1; c < n.sub; c = nodes[c].sub {
+		m := &nodes[c]
+		if m.flags&hDrop != 0 {
+			continue
+		}
+		switch m.tag {
+		case atom.Dt:
+			term = c
+		case atom.Dd:
+			// One or two links (the expansion, perhaps a second source),
+			// holding all of the definition's text.
+			if term >= 0 && m.links > 0 && m.links <= 2 && m.linkChars == m.chars {
+				if tn := &nodes[term]; tn.chars > tn.linkChars {
+					n.links -= m.links
+					n.linkChars -= m.linkChars
+				}
+			}
 		}
 	}
 }
@@ -926,7 +961,19 @@ func (e *htmlEmitter) block(i int, kind BlockKind) {
 	case atom.Head, atom.Title:
 		return
 	case atom.H1, atom.H2, atom.H3, atom.H4, atom.H5, atom.H6:
+		if e.inBox(i) {
+			// The title of a note or a quote: text of the box, not the
+			// start of a section.
+			e.container(i, Paragraph)
+			return
+		}
 		e.headingAt(i)
+	case atom.Dt:
+		first := len(e.doc.Blocks)
+		e.container(i, Paragraph)
+		if a := e.t.termAnchor(i); a != "" && len(e.doc.Blocks) > first {
+			e.doc.Blocks[first].Anchor = a
+		}
 	case atom.Pre, atom.Listing, atom.Xmp, atom.Plaintext:
 		e.code(i)
 	case atom.Table:
@@ -939,11 +986,84 @@ func (e *htmlEmitter) block(i int, kind BlockKind) {
 		e.container(i, ListItem)
 	case atom.Blockquote:
 		e.container(i, Quote)
-	case atom.Dd, atom.Dt, atom.Td, atom.Th, atom.Caption, atom.Figcaption, atom.Summary:
+	case atom.Dd, atom.Td, atom.Th, atom.Caption, atom.Figcaption, atom.Summary:
 		e.container(i, Paragraph)
 	default:
 		e.container(i, kind)
 	}
+}
+
+// inBox reports whether heading i sits in a box that is not a section of
+// the page: an admonition (DocBook XSL writes <div class="note"><h3
+// class="title">Note</h3>), a sidebar, or one of the elements the HTML
+// outline algorithm made sectioning roots, whose headings do not belong to
+// the outline around them (W3C HTML 5.2, 4.3.11.1 "Creating an outline":
+// blockquote, details, fieldset, figure, td; a data table's cells are
+// read as rows and never reach here), plus aside, a complementary box. A
+// heading in such a box does not start a section: the text after the box
+// stays in the section around it.
+func (e *htmlEmitter) inBox(i int) bool {
+	t := e.t
+	for p, k := t.nodes[i].parent, 0; p > 0 && p != e.root && k < htmlSearchDepth; p, k = t.nodes[p].parent, k+1 {
+		switch t.nodes[p].tag {
+		case atom.Blockquote, atom.Details, atom.Fieldset, atom.Figure, atom.Aside:
+			return true
+		case atom.Div:
+			if a := t.attrOf(p); a != nil && htmlBoxClass(a.class) {
+				return true
+			}
+		}
+	}
+	return false
+}
+
+// htmlBoxClass reports whether a div's class names an admonition or a
+// sidebar box, by the class names DocBook XSL (note, tip, warning, caution,
+// important, sidebar), docutils and Sphinx (admonition, hint, attention,
+// danger, error, seealso) and AsciiDoc (admonitionblock, sidebarblock)
+// write.
+func htmlBoxClass(class string) bool {
+	for _, c := range strings.Fields(class) {
+		switch c {
+		case "note", "tip", "warning", "caution", "important", "sidebar", "admonition", "hint",
+			"attention", "danger", "error", "seealso", "admonitionblock", "sidebarblock":
+			return true
+		}
+	}
+	return false
+}
+
+// termAnchor returns the fragment of the defined term dt i: its own id
+// (Sphinx's <dt class="sig sig-object py" id="os.path.join">, AsciiDoc's
+// <dt class="hdlist1" id="...">), else the id or name of an element
+// inside it before any of its text (DocBook's <dt><span class="term"><a
+// id="GUC-WORK-MEM"></a>...), else "".
+func (t *htmlTree) termAnchor(i int) string {
+	if id := t.id(i); id != "" {
+		return id
+	}
+	for j := i + 1; j < t.nodes[i].sub; j++ {
+		n := &t.nodes[j]
+		if n.flags&hDrop != 0 {
+			j = n.sub - 1
+			continue
+		}
+		if n.flags&hText != 0 {
+			if n.flags&hSpace == 0 {
+				return ""
+			}
+			continue
+		}
+		if a := t.attrOf(j); a != nil {
+			if a.id != "" {
+				return a.id
+			}
+			if a.aname != "" {
+				return a.aname
+			}
+		}
+	}
+	return ""
 }
 
 // headingAt adds the heading element i.
@@ -1063,24 +1183,59 @@ func (e *htmlEmitter) anchor(i int) string {
 			}
 		}
 	}
+	// The nearest enclosing element with an id: a link to it lands above
+	// the heading, in the section that holds it (DocBook's refentry
+	// around a refsynopsisdiv), which is still the closest place a link
+	// can reach. The content root and what encloses it are the page
+	// itself, which the path alone names.
+	for p, k := t.nodes[i].parent, 0; p > 0 && p != e.root && k < htmlSearchDepth; p, k = t.nodes[p].parent, k+1 {
+		if id := t.id(p); id != "" {
+			return id
+		}
+	}
 	return ""
 }
 
 // firstContent returns the first child of p that is an element or
-// non-blank text, skipping empty inline elements (such as Sphinx's
-// <span id="label"></span> before a heading), or -1.
+// non-blank text, skipping elements that show no text and no image (such
+// as Sphinx's <span id="label"></span> before a heading, or the empty
+// <div class="titlepage"></div> DocBook XSL puts before a reference
+// page's name), or -1.
 func (t *htmlTree) firstContent(p int) int {
 	for c := p + 1; c < t.nodes[p].sub; c = t.nodes[c].sub {
 		n := &t.nodes[c]
 		if n.flags&hSpace != 0 {
 			continue
 		}
-		if n.flags&hText == 0 && !htmlBlock(n.tag) && n.chars == 0 && n.flags&hHasBlock == 0 && n.tag != atom.Img {
+		if n.flags&hText == 0 && t.blank(c) {
 			continue
 		}
 		return c
 	}
 	return -1
+}
+
+// blank reports whether element i shows nothing: no text and no image
+// below it (dropped parts count as nothing).
+func (t *htmlTree) blank(i int) bool {
+	n := &t.nodes[i]
+	if n.flags&hDrop != 0 {
+		return true
+	}
+	if n.chars > 0 {
+		return false
+	}
+	for j := i; j < n.sub; j++ {
+		m := &t.nodes[j]
+		if m.flags&hDrop != 0 {
+			j = m.sub - 1
+			continue
+		}
+		if m.tag == atom.Img {
+			return false
+		}
+	}
+	return true
 }
 
 // prevElement returns the element sibling just before i, skipping blank

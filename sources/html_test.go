@@ -348,7 +348,9 @@ func TestHTMLHeadings(t *testing.T) {
 		{"own id", `<h2 id="own">T</h2>`, []string{"h2 T #own ^-1"}},
 		{"sphinx section", `<section id="sec"><span id="label"></span><h2>T<a class="headerlink" href="#sec">¶</a></h2><p>x</p></section>`,
 			[]string{"h2 T #sec ^-1"}},
-		{"heading not first", `<section id="sec"><p>intro</p><h2>T</h2></section>`, []string{"h2 T # ^-1"}},
+		// Not the section's first content: the section's id is the nearest
+		// place above it a link can land on.
+		{"heading not first", `<section id="sec"><p>intro</p><h2>T</h2></section>`, []string{"h2 T #sec ^-1"}},
 		{"docbook nested divs", `<div class="sect1" id="FUNCS"><div class="titlepage"><div><div><h2 class="title">T</h2></div></div></div></div>`,
 			[]string{"h2 T #FUNCS ^-1"}},
 		{"anchor before", `<p>x</p><a name="before"></a><h2>T</h2>`, []string{"h2 T #before ^-1"}},
@@ -606,6 +608,8 @@ func FuzzParseHTML(f *testing.F) {
 		`<section id=s><span id=t></span><h2>x</h2></section>`, "<p>\x00\r\n\xff</p>", `<div hidden><main><p>x`,
 		`<p>http://a.b https://</p>`, `<br/><br/><img alt="a b"/>`, `<caption>c</caption>`, `<table><caption>c<tr><td>x</caption>`,
 		"<h1>¶</h1 >0", "\v", "<p>\u3000</p>", // found by fuzzing
+		`<div id=r><div class=titlepage></div><div><h2>n</h2></div></div>`, `<div class="note"><h3>Note</h3><p>x</div><p>y`,
+		`<dl><dt id=a>t<dd><a href=x>d</a><dt><a id=b></a>u<dd>v</dl>`, `<blockquote><h2 id=q>q</h2></blockquote><h2>r</h2>`,
 	} {
 		f.Add([]byte(s))
 	}
