@@ -70,9 +70,7 @@ func Open(dir string) (_ *Bundle, err error) {
 		return nil, fmt.Errorf("opening index of %s: %w", dir, err)
 	}
 	b.idx = idx
-	if b.analyzer = b.idx.Mapping().AnalyzerNamed(st.Analyzer); b.analyzer == nil {
-		return nil, fmt.Errorf("opening index of %s: no analyzer %q", dir, st.Analyzer)
-	}
+	b.analyzer = theAnalyzer()
 	f, err := os.Open(filepath.Join(dir, PassagesFile))
 	if err != nil {
 		return nil, err
@@ -158,29 +156,35 @@ func (b *Bundle) Close() error {
 }
 
 // Search returns the k passages that best match query, best first, ranked
-// by BM25 over three fields. Passages that match none of the query's terms
+// by BM25F over three fields. Passages that match none of the query's terms
 // are not returned; a query with no terms left after analysis returns none.
 //
-// The query goes through the same analysis as the passages (bleve's "en"
-// analyzer: words split at Unicode word boundaries, possessive 's removed,
-// lower-cased, English stop words dropped, Porter-stemmed), so "installing"
-// finds "install". Each distinct resulting term t counts once. The score of
+// The query goes through the same analysis as the passages (kbcAnalyzer:
+// words split at Unicode word boundaries, identifiers such as os.path.join,
+// pg_stat_activity, Foo::bar or fooBar kept whole and also split into their
+// parts, possessive 's removed, lower-cased, English stop words dropped,
+// Porter-stemmed), so "installing" finds "install" and "path join" finds
+// os.path.join. Each distinct resulting term t counts once. The score of
 // passage d is
 //
-//	score(d) = Σ_f w_f · Σ_t idf_f(t) · tf / (tf + k1 · (1 − b + b · dl / avgdl_f))
-//	idf_f(t) = ln(1 + (N_f − n_f(t) + 0.5) / (n_f(t) + 0.5))
+//	score(d) = Σ_t idf(t) · tf~(t, d) / (k1 + tf~(t, d))
+//	tf~(t, d) = Σ_f w_f · tf_f(t, d) / ((1 − b) + b · dl_f(d) / avgdl_f)
+//	idf(t) = ln(1 + (N − n(t) + 0.5) / (n(t) + 0.5))
 //
-// for the fields f = title (w = 2.0), heading trail (w = 1.5; its headings
-// joined) and text (w = 1.0), where tf is how often t occurs in field f of
-// d, dl the number of tokens in that field of d (after analysis, so stop
-// words do not count), avgdl_f the mean of dl over the N_f passages whose
-// field f has any token, n_f(t) the number of passages with t in f, k1 = 1.2
-// and b = 0.75. That is BM25 as Robertson and Zaragoza give it ("The
-// Probabilistic Relevance Framework: BM25 and Beyond", 2009, section 3.4),
-// with Lucene's IDF, which stays positive for terms in over half the
-// passages, applied per field and summed as a Lucene boolean query of
-// per-field term queries sums them (no coordination factor, no query
-// normalisation). Equal scores keep passages.jsonl order (path, line, id).
+// over the fields f = title (w = 2.0), heading (w = 1.5: the heading trail,
+// headings joined, and the passage's defined terms, build.Passage.Terms)
+// and text (w = 1.0), where tf_f(t, d) is how often t occurs in field f of
+// d, dl_f(d) the number of tokens in that field of d (after analysis: stop
+// words do not count, an identifier's parts do), avgdl_f the mean of dl_f
+// over all N passages, n(t) the number of passages with t in any field,
+// k1 = 1.2 and b = 0.75. That is BM25F as Robertson, Zaragoza and Taylor
+// published it ("Simple BM25 Extension to Multiple Weighted Fields", 2004;
+// restated in Robertson and Zaragoza, "The Probabilistic Relevance
+// Framework: BM25 and Beyond", 2009, section 3.3): the fields' frequencies
+// are weighted, length-normalised and summed before the one saturation,
+// so a word in the title and again in the text does not count as two rare
+// words; with Lucene's IDF, which stays positive for terms in over half the
+// passages. Equal scores keep passages.jsonl order (path, line, id).
 //
 // bleve computes the terms' postings; the arithmetic is ours, because
 // bleve v2.6.3's own BM25 differs from the formula above (it scores
@@ -205,8 +209,8 @@ func (b *Bundle) Search(query string, k int) ([]Hit, error) {
 	}
 	defer r.Close()
 	acc, _ := b.scratch.Get().(*[]float64)
-	if acc == nil || len(*acc) < len(b.lines) {
-		a := make([]float64, len(b.lines))
+	if acc == nil || len(*acc) < 2*len(b.lines) {
+		a := make([]float64, 2*len(b.lines))
 		acc = &a
 	}
 	top, err := b.params.rank(r, terms, k, acc)
@@ -243,26 +247,31 @@ func queryTerms(a analysis.Analyzer, query string) [][]byte {
 	return slices.CompactFunc(terms, bytes.Equal)
 }
 
-// bm25Params are the collection statistics and parameters of the ranking,
-// by field.
+// bm25Params are the collection statistics and parameters of the ranking.
 type bm25Params struct {
 	k1, b  float64
+	docs   int // N: passages
 	fields []fieldParams
 }
 
 type fieldParams struct {
-	name  string
-	boost float64
-	docs  int     // N_f
-	avgdl float64 // avgdl_f
+	name   string
+	weight float64 // w_f
+	avgdl  float64 // avgdl_f
 }
 
 func (s *indexStats) params() bm25Params {
-	p := bm25Params{k1: s.K1, b: s.B}
+	p := bm25Params{k1: s.K1, b: s.B, docs: s.Docs}
 	for _, f := range searchFields {
-		p.fields = append(p.fields, fieldParams{name: f, boost: s.Boosts[f], docs: s.Fields[f].Docs, avgdl: s.avgdl(f)})
+		p.fields = append(p.fields, fieldParams{name: f, weight: s.Boosts[f], avgdl: s.avgdl(f)})
 	}
 	return p
+}
+
+// halves splits scratch space into its two equal halves.
+func halves(s []float64) (a, b []float64) {
+	n := len(s) / 2
+	return s[:n:n], s[n:]
 }
 
 type scoredDoc struct {
@@ -272,35 +281,36 @@ type scoredDoc struct {
 
 // rank scores every passage that holds any of terms and returns the best k,
 // best first; equal scores in document order. *accp is scratch space of at
-// least one float64 per passage, all zero, grown when the index numbers its
-// documents further, and left all zero.
+// least two float64 per passage, all zero, grown when the index numbers its
+// documents further, and left all zero: the first half holds the scores,
+// the second one term's weighted frequency (tf~ of Search's formula).
 func (p *bm25Params) rank(r index.IndexReader, terms [][]byte, k int, accp *[]float64) ([]scoredDoc, error) {
-	acc := *accp
-	var touched []uint64
+	acc, wtf := halves(*accp)
+	var touched, termDocs []uint64
 	ctx := context.Background()
 	var tfd index.TermFieldDoc
 	defer func() {
 		for _, d := range touched {
 			acc[d] = 0
 		}
-	}()
-	for _, f := range p.fields {
-		if f.boost == 0 || f.docs == 0 {
-			continue
+		for _, d := range termDocs {
+			wtf[d] = 0
 		}
-		norm := p.k1 * (1 - p.b) // k1·(1−b) + k1·b·dl/avgdl_f, split
-		perLen := p.k1 * p.b / f.avgdl
-		for _, t := range terms {
+	}()
+	for _, t := range terms {
+		termDocs = termDocs[:0]
+		for _, f := range p.fields {
+			if f.weight == 0 || f.avgdl == 0 {
+				continue
+			}
+			// w_f · tf / (1 − b + b · dl/avgdl_f), with the denominator
+			// split.
+			norm := 1 - p.b
+			perLen := p.b / f.avgdl
 			tfr, err := r.TermFieldReader(ctx, t, f.name, true, true, false)
 			if err != nil {
 				return nil, err
 			}
-			n := float64(tfr.Count())
-			if n == 0 {
-				tfr.Close()
-				continue
-			}
-			w := f.boost * math.Log(1+(float64(f.docs)-n+0.5)/(n+0.5))
 			for {
 				d, err := tfr.Next(&tfd)
 				if err != nil {
@@ -314,19 +324,32 @@ func (p *bm25Params) rank(r index.IndexReader, terms [][]byte, k int, accp *[]fl
 				if doc >= uint64(len(acc)) {
 					// An index updated in place numbers its documents
 					// past the passage count (deleted ones keep theirs).
-					grown := make([]float64, doc+1+doc/4)
-					copy(grown, acc)
-					acc = grown
+					grown := make([]float64, 2*(doc+1+doc/4))
+					na, nw := halves(grown)
+					copy(na, acc)
+					copy(nw, wtf)
+					acc, wtf = na, nw
 					*accp = grown
 				}
-				if acc[doc] == 0 {
-					touched = append(touched, doc)
+				if wtf[doc] == 0 {
+					termDocs = append(termDocs, doc)
 				}
-				tf := float64(d.Freq)
-				acc[doc] += w * tf / (tf + norm + perLen*fieldLength(d.Norm))
+				wtf[doc] += f.weight * float64(d.Freq) / (norm + perLen*fieldLength(d.Norm))
 			}
 			tfr.Close()
 		}
+		// n(t): the passages with t in any field.
+		n := float64(len(termDocs))
+		idf := math.Log(1 + (float64(p.docs)-n+0.5)/(n+0.5))
+		for _, doc := range termDocs {
+			x := wtf[doc]
+			wtf[doc] = 0
+			if acc[doc] == 0 {
+				touched = append(touched, doc)
+			}
+			acc[doc] += idf * x / (p.k1 + x)
+		}
+		termDocs = termDocs[:0]
 	}
 	// The best k in a min-heap whose root is the worst kept so far.
 	worse := func(a, b scoredDoc) bool { return a.score < b.score || a.score == b.score && a.doc > b.doc }
