@@ -1,7 +1,6 @@
 package bundle
 
 import (
-	"bufio"
 	"bytes"
 	"cmp"
 	"context"
@@ -30,8 +29,8 @@ type Bundle struct {
 	analyzer analysis.Analyzer
 	params   bm25Params
 	passages *os.File
-	lines    map[string]span // passage id -> its line in passages.jsonl
-	scratch  sync.Pool       // *[]float64, one score per passage, all zero
+	lines    *lineTable // passage id -> its line in passages.jsonl
+	scratch  sync.Pool  // *[]float64, one score per passage, all zero
 }
 
 // span is a line of passages.jsonl without its newline.
@@ -46,10 +45,12 @@ type Hit struct {
 	Score float64 `json:"score"`
 }
 
-// Open opens the bundle in dir for searching: it reads the manifest and the
-// index statistics, opens the index read-only, and reads passages.jsonl once
-// to find where each passage's line starts; hits are read from there. Open
-// does not verify hashes (see Verify).
+// Open opens the bundle in dir for searching: it reads the manifest, the
+// index statistics and the table of passages.jsonl's lines (LinesFile),
+// and opens the index read-only; hits are read from passages.jsonl by id.
+// A bundle without a usable table (made before LinesFile existed) is
+// opened by reading passages.jsonl once to make it. Open does not verify
+// hashes (see Verify).
 func Open(dir string) (_ *Bundle, err error) {
 	m, err := ReadManifest(dir)
 	if err != nil {
@@ -59,7 +60,7 @@ func Open(dir string) (_ *Bundle, err error) {
 	if err != nil {
 		return nil, err
 	}
-	b := &Bundle{dir: dir, manifest: m, params: st.params()}
+	b := &Bundle{dir: dir, manifest: m, params: st.params(), analyzer: theAnalyzer()}
 	defer func() {
 		if err != nil {
 			b.Close()
@@ -70,55 +71,31 @@ func Open(dir string) (_ *Bundle, err error) {
 		return nil, fmt.Errorf("opening index of %s: %w", dir, err)
 	}
 	b.idx = idx
-	b.analyzer = theAnalyzer()
 	f, err := os.Open(filepath.Join(dir, PassagesFile))
 	if err != nil {
 		return nil, err
 	}
 	b.passages = f
-	if b.lines, err = readLines(b.passages); err != nil {
-		return nil, fmt.Errorf("%s: %w", b.passages.Name(), err)
+	fi, err := f.Stat()
+	if err != nil {
+		return nil, err
+	}
+	if data, err := os.ReadFile(filepath.Join(dir, LinesFile)); err == nil {
+		b.lines, _ = readLineTable(data, fi.Size())
+	}
+	if b.lines == nil {
+		if b.lines, _, err = scanLines(f); err != nil {
+			return nil, fmt.Errorf("%s: %w", f.Name(), err)
+		}
 	}
 	n, err := b.idx.DocCount()
 	if err != nil {
 		return nil, err
 	}
-	if int(n) != len(b.lines) || n != uint64(st.Docs) {
-		return nil, fmt.Errorf("%s: index holds %d passages, index/stats.json %d, passages.jsonl %d", dir, n, st.Docs, len(b.lines))
+	if int(n) != b.lines.len() || n != uint64(st.Docs) {
+		return nil, fmt.Errorf("%s: index holds %d passages, index/stats.json %d, passages.jsonl %d", dir, n, st.Docs, b.lines.len())
 	}
 	return b, nil
-}
-
-// readLines maps each passage id in passages.jsonl to its line. Lines as
-// Write makes them start with the id ({"id":"...); others are decoded.
-func readLines(f *os.File) (map[string]span, error) {
-	lines := make(map[string]span)
-	sc := bufio.NewScanner(f)
-	sc.Buffer(make([]byte, 1<<16), 1<<30)
-	prefix := []byte(`{"id":"`)
-	var off int64
-	for no := 1; sc.Scan(); no++ {
-		line := sc.Bytes()
-		var id string
-		rest, ok := bytes.CutPrefix(line, prefix)
-		if i := bytes.IndexAny(rest, `"\`); ok && i >= 0 && rest[i] == '"' {
-			id = string(rest[:i])
-		} else {
-			var p struct {
-				ID string `json:"id"`
-			}
-			if err := json.Unmarshal(line, &p); err != nil {
-				return nil, fmt.Errorf("line %d: %w", no, err)
-			}
-			id = p.ID
-		}
-		if _, dup := lines[id]; dup {
-			return nil, fmt.Errorf("line %d: passage id %s is used twice", no, id)
-		}
-		lines[id] = span{off, len(line)}
-		off += int64(len(line)) + 1
-	}
-	return lines, sc.Err()
 }
 
 // Manifest returns the bundle's manifest.
@@ -127,7 +104,7 @@ func (b *Bundle) Manifest() *Manifest { return b.manifest }
 // Passage reads the passage with the given id from passages.jsonl.
 func (b *Bundle) Passage(id string) (build.Passage, error) {
 	var p build.Passage
-	s, ok := b.lines[id]
+	s, ok := b.lines.find(id)
 	if !ok {
 		return p, fmt.Errorf("%s: no passage %s", b.dir, id)
 	}
@@ -137,6 +114,9 @@ func (b *Bundle) Passage(id string) (build.Passage, error) {
 	}
 	if err := json.Unmarshal(buf, &p); err != nil {
 		return p, fmt.Errorf("%s: passage %s: %w", b.passages.Name(), id, err)
+	}
+	if p.ID != id {
+		return p, fmt.Errorf("%s: passage %s: %s %v", b.dir, id, LinesFile, errLinesStale)
 	}
 	return p, nil
 }
@@ -209,8 +189,8 @@ func (b *Bundle) Search(query string, k int) ([]Hit, error) {
 	}
 	defer r.Close()
 	acc, _ := b.scratch.Get().(*[]float64)
-	if acc == nil || len(*acc) < 2*len(b.lines) {
-		a := make([]float64, 2*len(b.lines))
+	if acc == nil || len(*acc) < 2*b.lines.len() {
+		a := make([]float64, 2*b.lines.len())
 		acc = &a
 	}
 	top, err := b.params.rank(r, terms, k, acc)

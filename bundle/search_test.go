@@ -662,3 +662,44 @@ func TestOddIDs(t *testing.T) {
 		t.Errorf("got %q, want %q", got, want)
 	}
 }
+
+// TestOpenWithoutLinesFile checks that a bundle whose passages.lines is
+// missing or does not match passages.jsonl (made before the file existed,
+// or damaged) opens by reading passages.jsonl and finds the same passages.
+func TestOpenWithoutLinesFile(t *testing.T) {
+	dir := filepath.Join(t.TempDir(), "gen")
+	mustWrite(t, dir, &Input{Passages: genPassages(300, 5)})
+	want := func() []Hit {
+		b := mustOpen(t, dir)
+		hits, err := b.Search("guide", 20)
+		if err != nil || len(hits) == 0 {
+			t.Fatalf("%v, %v", hits, err)
+		}
+		return hits
+	}()
+	lines := filepath.Join(dir, LinesFile)
+	data, err := os.ReadFile(lines)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for name, damage := range map[string]func() error{
+		"missing":   func() error { return os.Remove(lines) },
+		"cut short": func() error { return os.WriteFile(lines, data[:len(data)/2], 0o644) },
+		"other size": func() error {
+			d := slices.Clone(data)
+			d[len(linesMagic)]++
+			return os.WriteFile(lines, d, 0o644)
+		},
+	} {
+		t.Run(name, func(t *testing.T) {
+			if err := damage(); err != nil {
+				t.Fatal(err)
+			}
+			b := mustOpen(t, dir)
+			got, err := b.Search("guide", 20)
+			if err != nil || !slices.EqualFunc(got, want, func(x, y Hit) bool { return x.ID == y.ID && x.Score == y.Score && x.Text == y.Text }) {
+				t.Errorf("got %d hits (%v), want %d", len(got), err, len(want))
+			}
+		})
+	}
+}
