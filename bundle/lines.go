@@ -10,6 +10,7 @@ import (
 	"io"
 	"os"
 	"slices"
+	"strings"
 )
 
 // LinesFile is the bundle's table of where each line of passages.jsonl lies,
@@ -34,131 +35,154 @@ const LinesFile = "passages.lines"
 
 const linesMagic = "kbc-lines 1\n"
 
-// lineTable finds a passage's line in passages.jsonl by id. It is read-only
+// lineTable finds a passage's line in passages.jsonl by id, reading
+// LinesFile's bytes in place (mapped into memory where the system allows),
+// so that opening costs the same for any number of passages. Every read
+// is bounds-checked: a damaged table gives a wrong or no line, never a
+// crash, and Passage checks the id of the line it reads. It is read-only
 // after it is made.
 type lineTable struct {
-	offs []uint64
-	lens []uint32
-	ends []uint32 // id i is ids[ends[i-1]:ends[i]]
-	byID []uint32 // positions sorted by id
-	ids  []byte
+	data  []byte // the whole file
+	size  uint64 // passages.jsonl's size
+	n     int
+	unmap func() error
 }
 
-func (t *lineTable) len() int { return len(t.offs) }
+const linesHeader = len(linesMagic) + 12
 
+func (t *lineTable) len() int { return t.n }
+
+func (t *lineTable) u32(section, i int) (uint32, bool) {
+	p := linesHeader + 8*t.n + 4*t.n*section + 4*i
+	if i < 0 || i >= t.n || p+4 > len(t.data) {
+		return 0, false
+	}
+	return binary.LittleEndian.Uint32(t.data[p:]), true
+}
+
+// id returns the id of line i.
 func (t *lineTable) id(i uint32) []byte {
+	ids := linesHeader + 20*t.n
 	start := uint32(0)
 	if i > 0 {
-		start = t.ends[i-1]
+		start, _ = t.u32(1, int(i)-1)
 	}
-	return t.ids[start:t.ends[i]]
+	end, ok := t.u32(1, int(i))
+	if !ok || start > end || ids+int(end) > len(t.data) {
+		return nil
+	}
+	return t.data[ids+int(start) : ids+int(end)]
 }
 
 // find returns the span of the line of passage id.
 func (t *lineTable) find(id string) (span, bool) {
-	k, ok := slices.BinarySearchFunc(t.byID, id, func(i uint32, id string) int {
-		return bytes.Compare(t.id(i), []byte(id))
-	})
-	if !ok {
-		return span{}, false
-	}
-	i := t.byID[k]
-	return span{int64(t.offs[i]), int(t.lens[i])}, true
-}
-
-// newLineTable makes the table of lines with the given ids and spans, in
-// passages.jsonl order; it fails on an id used twice.
-func newLineTable(ids []string, spans []span) (*lineTable, error) {
-	t := &lineTable{
-		offs: make([]uint64, len(ids)),
-		lens: make([]uint32, len(ids)),
-		ends: make([]uint32, len(ids)),
-		byID: make([]uint32, len(ids)),
-	}
-	for i, id := range ids {
-		t.ids = append(t.ids, id...)
-		t.ends[i] = uint32(len(t.ids))
-		t.offs[i] = uint64(spans[i].off)
-		t.lens[i] = uint32(spans[i].n)
-		t.byID[i] = uint32(i)
-	}
-	slices.SortStableFunc(t.byID, func(a, b uint32) int { return bytes.Compare(t.id(a), t.id(b)) })
-	for k := 1; k < len(t.byID); k++ {
-		if bytes.Equal(t.id(t.byID[k-1]), t.id(t.byID[k])) {
-			return nil, fmt.Errorf("line %d: passage id %s is used twice", max(t.byID[k-1], t.byID[k])+1, t.id(t.byID[k]))
+	lo, hi := 0, t.n
+	for lo < hi { // the first k whose id is not below id
+		m := int(uint(lo+hi) >> 1)
+		i, _ := t.u32(2, m)
+		if bytes.Compare(t.id(i), []byte(id)) < 0 {
+			lo = m + 1
+		} else {
+			hi = m
 		}
 	}
-	return t, nil
+	i, ok := t.u32(2, lo)
+	if !ok || string(t.id(i)) != id {
+		return span{}, false
+	}
+	p := linesHeader + 8*int(i)
+	off := binary.LittleEndian.Uint64(t.data[p:])
+	n, _ := t.u32(0, int(i))
+	if off > t.size || uint64(n) > t.size-off {
+		return span{}, false
+	}
+	return span{int64(off), int(n)}, true
 }
 
-// writeTo writes the table as LinesFile for a passages.jsonl of size bytes.
-func (t *lineTable) writeTo(w io.Writer, size int64) error {
+// close releases the table's memory mapping, if any.
+func (t *lineTable) close() error {
+	if t.unmap == nil {
+		return nil
+	}
+	err := t.unmap()
+	t.unmap, t.data = nil, nil
+	return err
+}
+
+// encodeLines writes LinesFile for the lines with the given ids and spans,
+// in passages.jsonl order, of a passages.jsonl of size bytes; it fails on
+// an id used twice.
+func encodeLineTable(w io.Writer, ids []string, spans []span, size int64) error {
+	byID := make([]uint32, len(ids))
+	for i := range byID {
+		byID[i] = uint32(i)
+	}
+	slices.SortStableFunc(byID, func(a, b uint32) int { return strings.Compare(ids[a], ids[b]) })
+	for k := 1; k < len(byID); k++ {
+		if ids[byID[k-1]] == ids[byID[k]] {
+			return fmt.Errorf("line %d: passage id %s is used twice", max(byID[k-1], byID[k])+1, ids[byID[k]])
+		}
+	}
 	bw := bufio.NewWriter(w)
 	bw.WriteString(linesMagic)
 	le := binary.LittleEndian
 	var b [8]byte
 	bw.Write(le.AppendUint64(b[:0], uint64(size)))
-	bw.Write(le.AppendUint32(b[:0], uint32(t.len())))
-	for _, v := range t.offs {
-		bw.Write(le.AppendUint64(b[:0], v))
+	bw.Write(le.AppendUint32(b[:0], uint32(len(ids))))
+	for _, s := range spans {
+		bw.Write(le.AppendUint64(b[:0], uint64(s.off)))
 	}
-	for _, s := range [][]uint32{t.lens, t.ends, t.byID} {
-		for _, v := range s {
-			bw.Write(le.AppendUint32(b[:0], v))
-		}
+	for _, s := range spans {
+		bw.Write(le.AppendUint32(b[:0], uint32(s.n)))
 	}
-	bw.Write(t.ids)
+	end := 0
+	for _, id := range ids {
+		end += len(id)
+		bw.Write(le.AppendUint32(b[:0], uint32(end)))
+	}
+	for _, v := range byID {
+		bw.Write(le.AppendUint32(b[:0], v))
+	}
+	for _, id := range ids {
+		bw.WriteString(id)
+	}
 	return bw.Flush()
 }
 
 // errLinesStale says LinesFile does not describe passages.jsonl.
 var errLinesStale = errors.New("does not match passages.jsonl")
 
-// readLineTable reads LinesFile data for a passages.jsonl of size bytes.
-func readLineTable(data []byte, size int64) (*lineTable, error) {
-	le := binary.LittleEndian
+// newLineTableData checks the header of LinesFile data for a passages.jsonl
+// of size bytes.
+func newLineTableData(data []byte, size int64) (*lineTable, error) {
 	rest, ok := bytes.CutPrefix(data, []byte(linesMagic))
 	if !ok || len(rest) < 12 {
 		return nil, errors.New("not a table of lines")
 	}
-	if int64(le.Uint64(rest)) != size {
+	if int64(binary.LittleEndian.Uint64(rest)) != size {
 		return nil, errLinesStale
 	}
-	n := int(le.Uint32(rest[8:]))
-	rest = rest[12:]
-	if len(rest) < n*20 {
+	n := int(binary.LittleEndian.Uint32(rest[8:]))
+	if len(rest)-12 < 20*n {
 		return nil, errors.New("table of lines cut short")
 	}
-	t := &lineTable{
-		offs: make([]uint64, n),
-		lens: make([]uint32, n),
-		ends: make([]uint32, n),
-		byID: make([]uint32, n),
+	return &lineTable{data: data, size: uint64(size), n: n}, nil
+}
+
+// openLineTable opens LinesFile at path for a passages.jsonl of size bytes.
+func openLineTable(path string, size int64) (*lineTable, error) {
+	data, unmap, err := mapFile(path)
+	if err != nil {
+		return nil, err
 	}
-	for i := range t.offs {
-		t.offs[i] = le.Uint64(rest[8*i:])
-	}
-	rest = rest[8*n:]
-	for _, s := range [][]uint32{t.lens, t.ends, t.byID} {
-		for i := range s {
-			s[i] = le.Uint32(rest[4*i:])
+	t, err := newLineTableData(data, size)
+	if err != nil {
+		if unmap != nil {
+			unmap()
 		}
-		rest = rest[4*n:]
+		return nil, err
 	}
-	t.ids = rest
-	// Enough checks that a damaged table cannot index out of range: spans
-	// inside passages.jsonl, id ends rising to the end of ids, positions
-	// in range.
-	prev := uint32(0)
-	for i := range n {
-		if t.offs[i]+uint64(t.lens[i]) > uint64(size) || t.ends[i] < prev || t.byID[i] >= uint32(n) {
-			return nil, errors.New("damaged table of lines")
-		}
-		prev = t.ends[i]
-	}
-	if n > 0 && int(prev) != len(t.ids) || n == 0 && len(t.ids) != 0 {
-		return nil, errors.New("damaged table of lines")
-	}
+	t.unmap = unmap
 	return t, nil
 }
 
@@ -193,6 +217,10 @@ func scanLines(f *os.File) (*lineTable, int64, error) {
 	if err := sc.Err(); err != nil {
 		return nil, 0, err
 	}
-	t, err := newLineTable(ids, spans)
+	var buf bytes.Buffer
+	if err := encodeLineTable(&buf, ids, spans, off); err != nil {
+		return nil, 0, err
+	}
+	t, err := newLineTableData(buf.Bytes(), off)
 	return t, off, err
 }

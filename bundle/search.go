@@ -80,9 +80,7 @@ func Open(dir string) (_ *Bundle, err error) {
 	if err != nil {
 		return nil, err
 	}
-	if data, err := os.ReadFile(filepath.Join(dir, LinesFile)); err == nil {
-		b.lines, _ = readLineTable(data, fi.Size())
-	}
+	b.lines, _ = openLineTable(filepath.Join(dir, LinesFile), fi.Size())
 	if b.lines == nil {
 		if b.lines, _, err = scanLines(f); err != nil {
 			return nil, fmt.Errorf("%s: %w", f.Name(), err)
@@ -131,6 +129,9 @@ func (b *Bundle) Close() error {
 	if b.passages != nil {
 		errs = append(errs, b.passages.Close())
 		b.passages = nil
+	}
+	if b.lines != nil {
+		errs = append(errs, b.lines.close())
 	}
 	return errors.Join(errs...)
 }

@@ -413,11 +413,7 @@ func writeTree(dir string, in *Input) (*Manifest, *catalog, error) {
 	for j, e := range cat.Entries {
 		ids[j], spans[j] = e.ID, span{e.Off, int(e.Len) - 1} // without its newline
 	}
-	table, err := newLineTable(ids, spans)
-	if err != nil {
-		return nil, nil, err
-	}
-	m.Files[LinesFile], err = writeFile(dir, LinesFile, func(w io.Writer) error { return table.writeTo(w, cat.Size) })
+	m.Files[LinesFile], err = writeFile(dir, LinesFile, func(w io.Writer) error { return encodeLineTable(w, ids, spans, cat.Size) })
 	if err != nil {
 		return nil, nil, err
 	}
