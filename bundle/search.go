@@ -167,12 +167,35 @@ func (b *Bundle) Close() error {
 // words; with Lucene's IDF, which stays positive for terms in over half the
 // passages. Equal scores keep passages.jsonl order (path, line, id).
 //
+// Then the best max(k, 50) passages by that score are re-scored for
+// nearness in the heading field: when a query has two or more distinct
+// terms and a passage's heading field holds m ≥ 2 of them, the smallest
+// window of that field's tokens that holds m of them spans s positions
+// (s ≥ m), and the score is multiplied by 1 + 0.3 · (m/|Q|) · (m/s),
+// |Q| the query's distinct terms. So a heading that holds all the
+// question's words side by side gains 30%, one that scatters them less.
+// The weight 0.3 is our judgement, measured on our question sets (every
+// set's MRR@10 rose; the same bonus on the text field helped less and
+// hurt some), not from a source.
+//
 // bleve computes the terms' postings; the arithmetic is ours, because
 // bleve v2.6.3's own BM25 differs from the formula above (it scores
 // √tf, takes the average field length from the number of distinct terms,
 // rounded up, and multiplies a disjunction by boost·idf·query norm and a
 // coordination factor); the package documentation has the details.
 func (b *Bundle) Search(query string, k int) ([]Hit, error) {
+	return b.search(query, k, true)
+}
+
+// Nearness re-scoring (see Search): the depth of the candidates re-scored
+// and the weight of the bonus.
+const (
+	rescoreDepth = 50
+	nearWeight   = 0.3
+)
+
+// search is Search, with the nearness re-scoring when near is set.
+func (b *Bundle) search(query string, k int, near bool) ([]Hit, error) {
 	if b.idx == nil {
 		return nil, errors.New("search: bundle is closed")
 	}
@@ -194,7 +217,12 @@ func (b *Bundle) Search(query string, k int) ([]Hit, error) {
 		a := make([]float64, 2*b.lines.len())
 		acc = &a
 	}
-	top, err := b.params.rank(r, terms, k, acc)
+	depth := k
+	near = near && len(terms) >= 2
+	if near {
+		depth = max(k, rescoreDepth)
+	}
+	top, err := b.params.rank(r, terms, depth, acc)
 	b.scratch.Put(acc)
 	if err != nil {
 		return nil, fmt.Errorf("search: %w", err)
@@ -213,7 +241,49 @@ func (b *Bundle) Search(query string, k int) ([]Hit, error) {
 		}
 		hits[i].Score = s.score
 	}
+	if near {
+		for i := range hits {
+			hits[i].Score *= 1 + nearWeight*nearness(b.analyzer, headingText(&hits[i].Passage), terms)
+		}
+		// Stable: equal scores keep their order (passages.jsonl order).
+		slices.SortStableFunc(hits, func(x, y Hit) int { return cmp.Compare(y.Score, x.Score) })
+		hits = hits[:min(k, len(hits))]
+	}
 	return hits, nil
+}
+
+// nearness returns (m/|terms|)·(m/s) for the smallest window of text's
+// analysed tokens that holds the most distinct terms, m of them, over s
+// positions; 0 when m < 2. terms are distinct.
+func nearness(a analysis.Analyzer, text string, terms [][]byte) float64 {
+	type occ struct{ pos, term int }
+	var occs []occ
+	for _, tok := range a.Analyze([]byte(text)) {
+		if i := slices.IndexFunc(terms, func(t []byte) bool { return bytes.Equal(t, tok.Term) }); i >= 0 {
+			occs = append(occs, occ{tok.Position, i})
+		}
+	}
+	slices.SortStableFunc(occs, func(x, y occ) int { return cmp.Compare(x.pos, y.pos) })
+	count := make([]int, len(terms))
+	m, s, distinct, l := 0, 0, 0, 0
+	for r := range occs {
+		if count[occs[r].term] == 0 {
+			distinct++
+		}
+		count[occs[r].term]++
+		for l < r && count[occs[l].term] > 1 { // drop repeats on the left
+			count[occs[l].term]--
+			l++
+		}
+		span := occs[r].pos - occs[l].pos + 1
+		if distinct > m || distinct == m && span < s {
+			m, s = distinct, span
+		}
+	}
+	if m < 2 {
+		return 0
+	}
+	return float64(m) / float64(len(terms)) * float64(m) / float64(max(s, m))
 }
 
 // queryTerms analyses query and returns its distinct terms in byte order

@@ -524,7 +524,7 @@ func TestBM25Oracle(t *testing.T) {
 		if i%5 == 0 {
 			q = strings.Fields(p.Title)[0]
 		}
-		hits, err := b.Search(q, 10)
+		hits, err := b.search(q, 10, false) // the nearness bonus: TestNearness
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -701,5 +701,36 @@ func TestOpenWithoutLinesFile(t *testing.T) {
 				t.Errorf("got %d hits (%v), want %d", len(got), err, len(want))
 			}
 		})
+	}
+}
+
+// TestNearness checks the nearness bonus of Search's doc comment on values
+// worked out by hand (our own measure: no published source).
+func TestNearness(t *testing.T) {
+	a := theAnalyzer()
+	terms := func(q string) [][]byte { return queryTerms(a, q) }
+	tests := []struct {
+		heading, query string
+		want           float64
+	}{
+		// m = 2 of |Q| = 2, side by side (s = 2): 2/2 · 2/2.
+		{"Cargo > Door", "cargo door", 1},
+		// m = 2 of 3 ("van" missing), s = 2: 2/3 · 2/2.
+		{"Cargo > Door", "cargo door van", 2.0 / 3},
+		// m = 2 of 2, s = 4 (cargo at 1, door at 4): 1 · 2/4.
+		{"Cargo > Yard > Depot > Door", "door cargo", 0.5},
+		// The smallest window: cargo 1, door 2, cargo 5: s = 2.
+		{"cargo door crew van cargo", "cargo door", 1},
+		// One term only: no bonus; nor for a one-term query.
+		{"Cargo > Depot", "cargo door", 0},
+		{"Cargo > Door", "cargo", 0},
+		// An identifier's parts share its position: os.path.join holds
+		// "path" and "join" at one position, s = 1 < m, taken as m.
+		{"os.path.join", "path join", 1},
+	}
+	for _, tt := range tests {
+		if got := nearness(a, tt.heading, terms(tt.query)); math.Abs(got-tt.want) > 1e-12 {
+			t.Errorf("heading %q, query %q: %v, want %v", tt.heading, tt.query, got, tt.want)
+		}
 	}
 }
