@@ -8,6 +8,9 @@
 //	kbc query OUT "question" [-k 10] [--json]
 //	kbc stale SRC|OUT [--json] [--max-stale N|N%] [--fail-on-divergent]
 //	kbc diff A B [--json]
+//	kbc eval --qrels QRELS --run RUN [--json] [--min MEASURE=VALUE]...
+//	kbc eval OUT --queries QUERIES.tsv --qrels QRELS [--level section|page] [--baseline OLD]
+//	kbc eval OUT --self [--json]
 //	kbc verify OUT [--json]
 //	kbc publish OUT DEST [--tag NAME]...
 //	kbc pull SRC DIR [--tag NAME | --id ID]
@@ -64,6 +67,7 @@ func commands() []command {
 		{"query", "search a bundle", runQuery},
 		{"stale", "report stale pages of a docs folder or bundle", runStale},
 		{"diff", "list passages added, changed and removed between two bundles", runDiff},
+		{"eval", "measure retrieval quality against judged questions", runEval},
 		{"verify", "re-hash a bundle's files against its manifest", runVerify},
 		{"publish", "upload a bundle to a folder, S3 or OCI store", runPublish},
 		{"pull", "download and verify a bundle from a store", runPull},
