@@ -252,7 +252,7 @@ func BenchmarkIndexReference(b *testing.B) {
 				}
 				batch := idx.NewBatch()
 				for j := range ps {
-					if err := batch.Index(ps[j].ID, docOf(&ps[j])); err != nil {
+					if err := batch.IndexAdvanced(indexDocument(&ps[j])); err != nil {
 						b.Fatal(err)
 					}
 					if batch.Size() == batchSize || j == len(ps)-1 {

@@ -42,7 +42,9 @@ const (
 )
 
 // contentSum is ContentHash as bytes: the SHA-256 of a passage's title,
-// heading trail and text, each prefixed with its length.
+// heading trail and text, each prefixed with its length, and then, only
+// when the passage has defined terms (which the index searches), their
+// number and texts the same way.
 func contentSum(p *build.Passage) [sha256.Size]byte {
 	h := sha256.New()
 	var num []byte
@@ -66,6 +68,13 @@ func contentSum(p *build.Passage) [sha256.Size]byte {
 		field(s)
 	}
 	field(p.Text)
+	if len(p.Terms) > 0 {
+		num = strconv.AppendInt(num[:0], int64(len(p.Terms)), 10)
+		h.Write(append(num, ':'))
+		for _, t := range p.Terms {
+			field(t.Text)
+		}
+	}
 	var sum [sha256.Size]byte
 	h.Sum(sum[:0])
 	return sum

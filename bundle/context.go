@@ -175,7 +175,8 @@ func (b *Bundle) Context(question string, opts ContextOptions) (*Context, error)
 			cost = price(h, append(warn, note), text)
 		}
 		left -= cost
-		chosen = append(chosen, choice{hit: h, text: text, note: note, at: b.lines[h.ID]})
+		at, _ := b.lines.find(h.ID) // a hit's id is always there
+		chosen = append(chosen, choice{hit: h, text: text, note: note, at: at})
 	}
 
 	// Merge passages that follow each other in one section, in reading

@@ -43,9 +43,10 @@ func (d *Delta) Empty() bool {
 }
 
 // ContentHash is the SHA-256 (hex) of a passage's title, heading trail and
-// text: what the delta compares. Each string is prefixed with its length
-// and a colon, and the trail with its number of headings, so that no two
-// different passages hash the same bytes.
+// text, and of its defined terms' texts when it has any: what the delta
+// compares. Each string is prefixed with its length and a colon, and the
+// trail and the terms with their number, so that no two different passages
+// hash the same bytes.
 func ContentHash(p *build.Passage) string {
 	return hexSum(contentSum(p))
 }

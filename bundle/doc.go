@@ -34,8 +34,9 @@
 //
 // # Ranking
 //
-// Bundle.Search ranks by BM25 as published, computed per field and summed
-// with field boosts; its doc comment gives the formula. The term weight has
+// Bundle.Search ranks by BM25F as published (field frequencies weighted and
+// summed before one saturation, one IDF per term); its doc comment gives
+// the formula. The term weight has
 // no (k1 + 1) in its numerator, as in Robertson and Zaragoza's text and in
 // Lucene since version 8 (both from memory); the many write-ups that carry
 // it multiply every score by 2.2, which changes no ranking. bleve v2.6.3 can
@@ -65,7 +66,9 @@
 // length (see fieldLength), so its scores equal the formula to rounding
 // error: TestBM25HandComputed checks them against a table computed by hand
 // (to its 9 decimals), TestBM25Oracle against a plain implementation of the
-// formula on a generated corpus (to 1e-12 relative).
+// formula on a generated corpus (to 1e-12 relative). The analysis is ours
+// too (kbcAnalyzer, built from bleve's parts): the index mapping names
+// bleve's "en" analyzer only for tools that open index/ with bleve.
 //
 // # Writing atomically
 //

@@ -45,12 +45,13 @@ var searchFields = [...]string{fieldTitle, fieldHeading, fieldText}
 // (BM25_k1 and BM25_b in search/util.go), so does Lucene's BM25Similarity,
 // and Robertson and Zaragoza ("The Probabilistic Relevance Framework: BM25
 // and Beyond", 2009) report k1 in 1.2-2.0 and b = 0.75 as typical values
-// (Lucene and the paper from memory).
+// (Lucene and the paper from memory). One b serves every field.
 //
-// The field boosts are our judgement, not from a source: a query word in the
-// page title or the heading trail says more about what a passage is about
-// than one in its body, and the title more than the trail (the trail's outer
-// headings are shared by many passages).
+// The field weights are our judgement, not from a source: a query word in
+// the page title or the heading trail says more about what a passage is
+// about than one in its body, and the title more than the trail (the
+// trail's outer headings are shared by many passages). In BM25F a weight
+// multiplies the field's term frequency before saturation (see Search).
 const (
 	bm25K1       = 1.2
 	bm25B        = 0.75
@@ -65,23 +66,57 @@ const (
 // passages.
 const batchSize = 1000
 
-// indexDoc is what the index sees of a passage. The index stores none of it:
-// hits are read back from passages.jsonl by id.
-type indexDoc struct {
-	Title   string `json:"title"`
-	Heading string `json:"heading"`
-	Text    string `json:"text"`
+// headingText is what the heading field of a passage holds: its heading
+// trail, headings joined by " > ", and then the texts of its defined terms
+// (build.Passage.Terms), one a line. Defined terms are searched with the
+// heading weight because, like a heading, a term names what the text
+// beside it is about.
+func headingText(p *build.Passage) string {
+	if len(p.Terms) == 0 {
+		return strings.Join(p.Heading, " > ")
+	}
+	var sb strings.Builder
+	sb.WriteString(strings.Join(p.Heading, " > "))
+	for _, t := range p.Terms {
+		sb.WriteByte('\n')
+		sb.WriteString(t.Text)
+	}
+	return sb.String()
 }
 
-func docOf(p *build.Passage) indexDoc {
-	return indexDoc{Title: p.Title, Heading: strings.Join(p.Heading, " > "), Text: p.Text}
+// indexOptions are how each field is indexed: term frequencies and field
+// lengths only; nothing stored, no term vectors, no doc values.
+const indexOptions = index.IndexField
+
+// indexDocument is what the index sees of passage p: its title, heading
+// text (headingText) and text, analysed by kbcAnalyzer. The index stores
+// none of it: hits are read back from passages.jsonl by id. Built here
+// rather than through the index mapping so that the analysis is ours
+// and one function makes the documents of a fresh build and of an update.
+func indexDocument(p *build.Passage) *document.Document {
+	a := theAnalyzer()
+	d := document.NewDocument(p.ID)
+	for _, f := range [...]struct{ name, text string }{
+		{fieldTitle, p.Title}, {fieldHeading, headingText(p)}, {fieldText, p.Text},
+	} {
+		d.AddField(document.NewTextFieldCustom(f.name, nil, []byte(f.text), indexOptions, a))
+	}
+	d.AddIDField()
+	d.VisitFields(func(f index.Field) {
+		if f.Options().IsIndexed() {
+			f.Analyze()
+		}
+	})
+	d.SetIndexed()
+	return d
 }
 
 // newMapping returns the lean mapping of PERF-FLOOR.md section 5: three text
-// fields analysed with bleve's "en" analyzer (Unicode words, possessive 's
-// removed, lower case, English stop words removed, Porter stemming), indexed
-// with term frequencies and field lengths only: nothing stored, no term
-// vectors, no doc values, no _all field, no dynamic fields.
+// fields, nothing stored, no term vectors, no doc values, no _all field, no
+// dynamic fields. Search does not use it: the documents are made and
+// analysed by indexDocument, with kbcAnalyzer, which bleve's registry does
+// not know; the mapping names bleve's "en" analyzer, the nearest it has,
+// for anyone who opens index/ with bleve directly.
 func newMapping() *mapping.IndexMappingImpl {
 	field := mapping.NewTextFieldMapping()
 	field.Analyzer = en.AnalyzerName
@@ -130,15 +165,14 @@ type indexStats struct {
 	K1       float64               `json:"k1"`
 }
 
-// avgdl returns the average length of field f in tokens over the passages
-// that have the field, as Lucene's BM25Similarity does (sumTotalTermFreq /
-// docCount; from memory of the Lucene source, not checked here).
+// avgdl returns the average length of field f in tokens over all passages,
+// those without the field counting 0, as BM25F's average field length is
+// taken over the collection (Robertson and Zaragoza 2009, section 3.3).
 func (s *indexStats) avgdl(f string) float64 {
-	fs := s.Fields[f]
-	if fs.Docs == 0 {
+	if s.Docs == 0 {
 		return 0
 	}
-	return float64(fs.Tokens) / float64(fs.Docs)
+	return float64(s.Fields[f].Tokens) / float64(s.Docs)
 }
 
 // buildIndex writes the bleve index of the passages ps[order[0]],
@@ -167,7 +201,7 @@ func buildIndex(dir string, ps []build.Passage, order []int, content string) (*i
 	m := newMapping()
 	st := &indexStats{
 		Content:  content,
-		Analyzer: en.AnalyzerName,
+		Analyzer: analyzerName,
 		B:        bm25B,
 		K1:       bm25K1,
 		Docs:     len(order),
@@ -204,12 +238,8 @@ func buildIndex(dir string, ps []build.Passage, order []int, content string) (*i
 		}
 		done <- w
 	}()
-	var err error
 	for start := 0; start == 0 || start < len(order); start += batchSize {
-		var docs []index.Document
-		if docs, err = analyse(m, ps, order[start:min(start+batchSize, len(order))]); err != nil {
-			break
-		}
+		docs := analyse(ps, order[start:min(start+batchSize, len(order))])
 		for _, d := range docs {
 			d.VisitFields(func(f index.Field) {
 				if n := f.AnalyzedLength(); n > 0 && f.Name() != "_id" {
@@ -224,11 +254,8 @@ func buildIndex(dir string, ps []build.Passage, order []int, content string) (*i
 	}
 	close(batches)
 	w := <-done
-	if err == nil {
-		err = w.err
-	}
-	if err != nil {
-		return nil, err
+	if w.err != nil {
+		return nil, w.err
 	}
 	segPaths := w.paths
 	final, err := mergeSegments(plugin, scratch, segPaths)
@@ -245,7 +272,7 @@ func buildIndex(dir string, ps []build.Passage, order []int, content string) (*i
 	if err != nil {
 		return nil, fmt.Errorf("creating index: %w", err)
 	}
-	if err := b.Index("placeholder", indexDoc{}); err != nil {
+	if err := b.Index("placeholder", struct{}{}); err != nil {
 		b.Close()
 		return nil, fmt.Errorf("creating index: %w", err)
 	}
@@ -266,13 +293,12 @@ func buildIndex(dir string, ps []build.Passage, order []int, content string) (*i
 	return st, nil
 }
 
-// analyse maps and analyses the passages ps[i] for i in batch, on as many
-// goroutines as GOMAXPROCS allows, and returns their documents in batch
-// order. Each document's analysis depends on it alone, so the result does
-// not depend on the scheduling.
-func analyse(m mapping.IndexMapping, ps []build.Passage, batch []int) ([]index.Document, error) {
+// analyse makes the documents of the passages ps[i] for i in batch
+// (indexDocument), on as many goroutines as GOMAXPROCS allows, and returns
+// them in batch order. Each document depends on its passage alone, so the
+// result does not depend on the scheduling.
+func analyse(ps []build.Passage, batch []int) []index.Document {
 	docs := make([]index.Document, len(batch))
-	errs := make([]error, len(batch))
 	var next atomic.Int64
 	var wg sync.WaitGroup
 	for range min(runtime.GOMAXPROCS(0), len(batch)) {
@@ -282,24 +308,12 @@ func analyse(m mapping.IndexMapping, ps []build.Passage, batch []int) ([]index.D
 				if k >= len(batch) {
 					return
 				}
-				p := &ps[batch[k]]
-				d := document.NewDocument(p.ID)
-				if err := m.MapDocument(d, docOf(p)); err != nil {
-					errs[k] = fmt.Errorf("indexing passage %s: %w", p.ID, err)
-					continue
-				}
-				d.AddIDField()
-				d.VisitFields(func(f index.Field) {
-					if f.Options().IsIndexed() {
-						f.Analyze()
-					}
-				})
-				docs[k] = d
+				docs[k] = indexDocument(&ps[batch[k]])
 			}
 		})
 	}
 	wg.Wait()
-	return docs, errors.Join(errs...)
+	return docs
 }
 
 // writeSegment writes docs as the segment file number n in scratch.
@@ -386,8 +400,8 @@ func readStats(path string) (*indexStats, error) {
 	if err := json.Unmarshal(data, &st); err != nil {
 		return nil, fmt.Errorf("%s: %w", path, err)
 	}
-	if st.Analyzer != en.AnalyzerName {
-		return nil, fmt.Errorf("%s: unknown analyzer %q", path, st.Analyzer)
+	if st.Analyzer != analyzerName {
+		return nil, fmt.Errorf("%s: index analysed by %q, not %q: rebuild the bundle with this kbc", path, st.Analyzer, analyzerName)
 	}
 	return &st, nil
 }
@@ -451,7 +465,7 @@ func copyBucket(dst, src *bolt.Bucket, name, epoch []byte) error {
 // ranking parameters. Passages with equal content hashes index the same.
 func indexContent(c *catalog) string {
 	h := sha256.New()
-	fmt.Fprintf(h, "kbc-index 2 %s %g %g %g %g %g\x00", en.AnalyzerName, bm25K1, bm25B, boostTitle, boostHeading, boostText)
+	fmt.Fprintf(h, "kbc-index 3 %s %g %g %g %g %g\x00", analyzerName, bm25K1, bm25B, boostTitle, boostHeading, boostText)
 	var buf []byte
 	for i := range c.Entries {
 		e := &c.Entries[i]
@@ -490,8 +504,7 @@ func updateIndex(prior *Prior, indexDir string, ps []build.Passage, order []int,
 	if err := json.Unmarshal(data, &st); err != nil {
 		return nil, err
 	}
-	cur := newMapping()
-	if st.Analyzer != en.AnalyzerName || st.K1 != bm25K1 || st.B != bm25B ||
+	if st.Analyzer != analyzerName || st.K1 != bm25K1 || st.B != bm25B ||
 		st.Boosts[fieldTitle] != boostTitle || st.Boosts[fieldHeading] != boostHeading || st.Boosts[fieldText] != boostText {
 		return nil, errors.New("prior index made with other ranking settings")
 	}
@@ -555,15 +568,8 @@ func updateIndex(prior *Prior, indexDir string, ps []build.Passage, order []int,
 	for i := range all {
 		all[i] = i
 	}
-	oldDocs, err := analyse(cur, priorPs, all)
-	if err != nil {
-		return fail(err)
-	}
-	adjust(oldDocs, -1)
-	newDocs, err := analyse(cur, ps, add)
-	if err != nil {
-		return fail(err)
-	}
+	adjust(analyse(priorPs, all), -1)
+	newDocs := analyse(ps, add)
 	adjust(newDocs, +1)
 
 	idx, err := bleve.Open(indexDir)
@@ -574,8 +580,8 @@ func updateIndex(prior *Prior, indexDir string, ps []build.Passage, order []int,
 	for i := range priorPs {
 		batch.Delete(priorPs[i].ID)
 	}
-	for _, i := range add {
-		if err := batch.Index(ps[i].ID, docOf(&ps[i])); err != nil {
+	for _, d := range newDocs {
+		if err := batch.IndexAdvanced(d.(*document.Document)); err != nil {
 			idx.Close()
 			return fail(err)
 		}

@@ -8,10 +8,11 @@ import (
 	"strings"
 	"testing"
 
-	"github.com/blevesearch/bleve/v2/document"
 	index "github.com/blevesearch/bleve_index_api"
 	segment "github.com/blevesearch/scorch_segment_api/v2"
 	zap "github.com/blevesearch/zapx/v15"
+
+	"github.com/kbc-project/kbc/build"
 )
 
 // TestMergeSegments merges 23 small segment files (three rounds of at most
@@ -20,20 +21,14 @@ import (
 func TestMergeSegments(t *testing.T) {
 	scratch := t.TempDir()
 	plugin := &zap.ZapPlugin{}
-	m := newMapping()
 	var paths []string
 	n := 0
 	for s := 0; s < 23; s++ {
 		var docs []index.Document
 		for j := 0; j < 3; j++ {
-			d := document.NewDocument(fmt.Sprintf("d%03d", n))
+			p := build.Passage{ID: fmt.Sprintf("d%03d", n), Text: "some words"}
 			n++
-			if err := m.MapDocument(d, indexDoc{Text: "some words"}); err != nil {
-				t.Fatal(err)
-			}
-			d.AddIDField()
-			d.VisitFields(func(f index.Field) { f.Analyze() })
-			docs = append(docs, d)
+			docs = append(docs, indexDocument(&p))
 		}
 		seg, _, err := plugin.New(docs)
 		if err != nil {

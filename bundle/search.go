@@ -1,7 +1,6 @@
 package bundle
 
 import (
-	"bufio"
 	"bytes"
 	"cmp"
 	"context"
@@ -31,8 +30,8 @@ type Bundle struct {
 	analyzer analysis.Analyzer
 	params   bm25Params
 	passages *os.File
-	lines    map[string]span // passage id -> its line in passages.jsonl
-	scratch  sync.Pool       // *[]float64, one score per passage, all zero
+	lines    *lineTable // passage id -> its line in passages.jsonl
+	scratch  sync.Pool  // *[]float64, one score per passage, all zero
 
 	// The divergent copies of reports/duplicates.json, read on first use
 	// by Query (see conflicts).
@@ -67,10 +66,12 @@ type Hit struct {
 	canonical bool // the canonical side of a divergent pair (Query)
 }
 
-// Open opens the bundle in dir for searching: it reads the manifest and the
-// index statistics, opens the index read-only, and reads passages.jsonl once
-// to find where each passage's line starts; hits are read from there. Open
-// does not verify hashes (see Verify).
+// Open opens the bundle in dir for searching: it reads the manifest, the
+// index statistics and the table of passages.jsonl's lines (LinesFile),
+// and opens the index read-only; hits are read from passages.jsonl by id.
+// A bundle without a usable table (made before LinesFile existed) is
+// opened by reading passages.jsonl once to make it. Open does not verify
+// hashes (see Verify).
 func Open(dir string) (_ *Bundle, err error) {
 	m, err := ReadManifest(dir)
 	if err != nil {
@@ -80,7 +81,7 @@ func Open(dir string) (_ *Bundle, err error) {
 	if err != nil {
 		return nil, err
 	}
-	b := &Bundle{dir: dir, manifest: m, params: st.params()}
+	b := &Bundle{dir: dir, manifest: m, params: st.params(), analyzer: theAnalyzer()}
 	defer func() {
 		if err != nil {
 			b.Close()
@@ -91,57 +92,29 @@ func Open(dir string) (_ *Bundle, err error) {
 		return nil, fmt.Errorf("opening index of %s: %w", dir, err)
 	}
 	b.idx = idx
-	if b.analyzer = b.idx.Mapping().AnalyzerNamed(st.Analyzer); b.analyzer == nil {
-		return nil, fmt.Errorf("opening index of %s: no analyzer %q", dir, st.Analyzer)
-	}
 	f, err := os.Open(filepath.Join(dir, PassagesFile))
 	if err != nil {
 		return nil, err
 	}
 	b.passages = f
-	if b.lines, err = readLines(b.passages); err != nil {
-		return nil, fmt.Errorf("%s: %w", b.passages.Name(), err)
+	fi, err := f.Stat()
+	if err != nil {
+		return nil, err
+	}
+	b.lines, _ = openLineTable(filepath.Join(dir, LinesFile), fi.Size())
+	if b.lines == nil {
+		if b.lines, _, err = scanLines(f); err != nil {
+			return nil, fmt.Errorf("%s: %w", f.Name(), err)
+		}
 	}
 	n, err := b.idx.DocCount()
 	if err != nil {
 		return nil, err
 	}
-	if int(n) != len(b.lines) || n != uint64(st.Docs) {
-		return nil, fmt.Errorf("%s: index holds %d passages, index/stats.json %d, passages.jsonl %d", dir, n, st.Docs, len(b.lines))
+	if int(n) != b.lines.len() || n != uint64(st.Docs) {
+		return nil, fmt.Errorf("%s: index holds %d passages, index/stats.json %d, passages.jsonl %d", dir, n, st.Docs, b.lines.len())
 	}
 	return b, nil
-}
-
-// readLines maps each passage id in passages.jsonl to its line. Lines as
-// Write makes them start with the id ({"id":"...); others are decoded.
-func readLines(f *os.File) (map[string]span, error) {
-	lines := make(map[string]span)
-	sc := bufio.NewScanner(f)
-	sc.Buffer(make([]byte, 1<<16), 1<<30)
-	prefix := []byte(`{"id":"`)
-	var off int64
-	for no := 1; sc.Scan(); no++ {
-		line := sc.Bytes()
-		var id string
-		rest, ok := bytes.CutPrefix(line, prefix)
-		if i := bytes.IndexAny(rest, `"\`); ok && i >= 0 && rest[i] == '"' {
-			id = string(rest[:i])
-		} else {
-			var p struct {
-				ID string `json:"id"`
-			}
-			if err := json.Unmarshal(line, &p); err != nil {
-				return nil, fmt.Errorf("line %d: %w", no, err)
-			}
-			id = p.ID
-		}
-		if _, dup := lines[id]; dup {
-			return nil, fmt.Errorf("line %d: passage id %s is used twice", no, id)
-		}
-		lines[id] = span{off, len(line)}
-		off += int64(len(line)) + 1
-	}
-	return lines, sc.Err()
 }
 
 // Manifest returns the bundle's manifest.
@@ -150,7 +123,7 @@ func (b *Bundle) Manifest() *Manifest { return b.manifest }
 // Passage reads the passage with the given id from passages.jsonl.
 func (b *Bundle) Passage(id string) (build.Passage, error) {
 	var p build.Passage
-	s, ok := b.lines[id]
+	s, ok := b.lines.find(id)
 	if !ok {
 		return p, fmt.Errorf("%s: no passage %s", b.dir, id)
 	}
@@ -160,6 +133,9 @@ func (b *Bundle) Passage(id string) (build.Passage, error) {
 	}
 	if err := json.Unmarshal(buf, &p); err != nil {
 		return p, fmt.Errorf("%s: passage %s: %w", b.passages.Name(), id, err)
+	}
+	if p.ID != id {
+		return p, fmt.Errorf("%s: passage %s: %s %v", b.dir, id, LinesFile, errLinesStale)
 	}
 	return p, nil
 }
@@ -175,33 +151,53 @@ func (b *Bundle) Close() error {
 		errs = append(errs, b.passages.Close())
 		b.passages = nil
 	}
+	if b.lines != nil {
+		errs = append(errs, b.lines.close())
+	}
 	return errors.Join(errs...)
 }
 
 // Search returns the k passages that best match query, best first, ranked
-// by BM25 over three fields. Passages that match none of the query's terms
+// by BM25F over three fields. Passages that match none of the query's terms
 // are not returned; a query with no terms left after analysis returns none.
 //
-// The query goes through the same analysis as the passages (bleve's "en"
-// analyzer: words split at Unicode word boundaries, possessive 's removed,
-// lower-cased, English stop words dropped, Porter-stemmed), so "installing"
-// finds "install". Each distinct resulting term t counts once. The score of
+// The query goes through the same analysis as the passages (kbcAnalyzer:
+// words split at Unicode word boundaries, identifiers such as os.path.join,
+// pg_stat_activity, Foo::bar or fooBar kept whole and also split into their
+// parts, possessive 's removed, lower-cased, English stop words dropped,
+// Porter-stemmed), so "installing" finds "install" and "path join" finds
+// os.path.join. Each distinct resulting term t counts once. The score of
 // passage d is
 //
-//	score(d) = Σ_f w_f · Σ_t idf_f(t) · tf / (tf + k1 · (1 − b + b · dl / avgdl_f))
-//	idf_f(t) = ln(1 + (N_f − n_f(t) + 0.5) / (n_f(t) + 0.5))
+//	score(d) = Σ_t idf(t) · tf~(t, d) / (k1 + tf~(t, d))
+//	tf~(t, d) = Σ_f w_f · tf_f(t, d) / ((1 − b) + b · dl_f(d) / avgdl_f)
+//	idf(t) = ln(1 + (N − n(t) + 0.5) / (n(t) + 0.5))
 //
-// for the fields f = title (w = 2.0), heading trail (w = 1.5; its headings
-// joined) and text (w = 1.0), where tf is how often t occurs in field f of
-// d, dl the number of tokens in that field of d (after analysis, so stop
-// words do not count), avgdl_f the mean of dl over the N_f passages whose
-// field f has any token, n_f(t) the number of passages with t in f, k1 = 1.2
-// and b = 0.75. That is BM25 as Robertson and Zaragoza give it ("The
-// Probabilistic Relevance Framework: BM25 and Beyond", 2009, section 3.4),
-// with Lucene's IDF, which stays positive for terms in over half the
-// passages, applied per field and summed as a Lucene boolean query of
-// per-field term queries sums them (no coordination factor, no query
-// normalisation). Equal scores keep passages.jsonl order (path, line, id).
+// over the fields f = title (w = 2.0), heading (w = 1.5: the heading trail,
+// headings joined, and the passage's defined terms, build.Passage.Terms)
+// and text (w = 1.0), where tf_f(t, d) is how often t occurs in field f of
+// d, dl_f(d) the number of tokens in that field of d (after analysis: stop
+// words do not count, an identifier's parts do), avgdl_f the mean of dl_f
+// over all N passages, n(t) the number of passages with t in any field,
+// k1 = 1.2 and b = 0.75. That is BM25F as Robertson, Zaragoza and Taylor
+// published it ("Simple BM25 Extension to Multiple Weighted Fields", 2004;
+// restated in Robertson and Zaragoza, "The Probabilistic Relevance
+// Framework: BM25 and Beyond", 2009, section 3.3): the fields' frequencies
+// are weighted, length-normalised and summed before the one saturation,
+// so a word in the title and again in the text does not count as two rare
+// words; with Lucene's IDF, which stays positive for terms in over half the
+// passages. Equal scores keep passages.jsonl order (path, line, id).
+//
+// Then the best max(k, 50) passages by that score are re-scored for
+// nearness in the heading field: when a query has two or more distinct
+// terms and a passage's heading field holds m ≥ 2 of them, the smallest
+// window of that field's tokens that holds m of them spans s positions
+// (s ≥ m), and the score is multiplied by 1 + 0.3 · (m/|Q|) · (m/s),
+// |Q| the query's distinct terms. So a heading that holds all the
+// question's words side by side gains 30%, one that scatters them less.
+// The weight 0.3 is our judgement, measured on our question sets (every
+// set's MRR@10 rose; the same bonus on the text field helped less and
+// hurt some), not from a source.
 //
 // bleve computes the terms' postings; the arithmetic is ours, because
 // bleve v2.6.3's own BM25 differs from the formula above (it scores
@@ -209,6 +205,18 @@ func (b *Bundle) Close() error {
 // rounded up, and multiplies a disjunction by boost·idf·query norm and a
 // coordination factor); the package documentation has the details.
 func (b *Bundle) Search(query string, k int) ([]Hit, error) {
+	return b.search(query, k, true)
+}
+
+// Nearness re-scoring (see Search): the depth of the candidates re-scored
+// and the weight of the bonus.
+const (
+	rescoreDepth = 50
+	nearWeight   = 0.3
+)
+
+// search is Search, with the nearness re-scoring when near is set.
+func (b *Bundle) search(query string, k int, near bool) ([]Hit, error) {
 	if b.idx == nil {
 		return nil, errors.New("search: bundle is closed")
 	}
@@ -226,11 +234,16 @@ func (b *Bundle) Search(query string, k int) ([]Hit, error) {
 	}
 	defer r.Close()
 	acc, _ := b.scratch.Get().(*[]float64)
-	if acc == nil || len(*acc) < len(b.lines) {
-		a := make([]float64, len(b.lines))
+	if acc == nil || len(*acc) < 2*b.lines.len() {
+		a := make([]float64, 2*b.lines.len())
 		acc = &a
 	}
-	top, err := b.params.rank(r, terms, k, acc)
+	depth := k
+	near = near && len(terms) >= 2
+	if near {
+		depth = max(k, rescoreDepth)
+	}
+	top, err := b.params.rank(r, terms, depth, acc)
 	b.scratch.Put(acc)
 	if err != nil {
 		return nil, fmt.Errorf("search: %w", err)
@@ -249,7 +262,49 @@ func (b *Bundle) Search(query string, k int) ([]Hit, error) {
 		}
 		hits[i].Score = s.score
 	}
+	if near {
+		for i := range hits {
+			hits[i].Score *= 1 + nearWeight*nearness(b.analyzer, headingText(&hits[i].Passage), terms)
+		}
+		// Stable: equal scores keep their order (passages.jsonl order).
+		slices.SortStableFunc(hits, func(x, y Hit) int { return cmp.Compare(y.Score, x.Score) })
+		hits = hits[:min(k, len(hits))]
+	}
 	return hits, nil
+}
+
+// nearness returns (m/|terms|)·(m/s) for the smallest window of text's
+// analysed tokens that holds the most distinct terms, m of them, over s
+// positions; 0 when m < 2. terms are distinct.
+func nearness(a analysis.Analyzer, text string, terms [][]byte) float64 {
+	type occ struct{ pos, term int }
+	var occs []occ
+	for _, tok := range a.Analyze([]byte(text)) {
+		if i := slices.IndexFunc(terms, func(t []byte) bool { return bytes.Equal(t, tok.Term) }); i >= 0 {
+			occs = append(occs, occ{tok.Position, i})
+		}
+	}
+	slices.SortStableFunc(occs, func(x, y occ) int { return cmp.Compare(x.pos, y.pos) })
+	count := make([]int, len(terms))
+	m, s, distinct, l := 0, 0, 0, 0
+	for r := range occs {
+		if count[occs[r].term] == 0 {
+			distinct++
+		}
+		count[occs[r].term]++
+		for l < r && count[occs[l].term] > 1 { // drop repeats on the left
+			count[occs[l].term]--
+			l++
+		}
+		span := occs[r].pos - occs[l].pos + 1
+		if distinct > m || distinct == m && span < s {
+			m, s = distinct, span
+		}
+	}
+	if m < 2 {
+		return 0
+	}
+	return float64(m) / float64(len(terms)) * float64(m) / float64(max(s, m))
 }
 
 // queryTerms analyses query and returns its distinct terms in byte order
@@ -264,26 +319,31 @@ func queryTerms(a analysis.Analyzer, query string) [][]byte {
 	return slices.CompactFunc(terms, bytes.Equal)
 }
 
-// bm25Params are the collection statistics and parameters of the ranking,
-// by field.
+// bm25Params are the collection statistics and parameters of the ranking.
 type bm25Params struct {
 	k1, b  float64
+	docs   int // N: passages
 	fields []fieldParams
 }
 
 type fieldParams struct {
-	name  string
-	boost float64
-	docs  int     // N_f
-	avgdl float64 // avgdl_f
+	name   string
+	weight float64 // w_f
+	avgdl  float64 // avgdl_f
 }
 
 func (s *indexStats) params() bm25Params {
-	p := bm25Params{k1: s.K1, b: s.B}
+	p := bm25Params{k1: s.K1, b: s.B, docs: s.Docs}
 	for _, f := range searchFields {
-		p.fields = append(p.fields, fieldParams{name: f, boost: s.Boosts[f], docs: s.Fields[f].Docs, avgdl: s.avgdl(f)})
+		p.fields = append(p.fields, fieldParams{name: f, weight: s.Boosts[f], avgdl: s.avgdl(f)})
 	}
 	return p
+}
+
+// halves splits scratch space into its two equal halves.
+func halves(s []float64) (a, b []float64) {
+	n := len(s) / 2
+	return s[:n:n], s[n:]
 }
 
 type scoredDoc struct {
@@ -293,35 +353,36 @@ type scoredDoc struct {
 
 // rank scores every passage that holds any of terms and returns the best k,
 // best first; equal scores in document order. *accp is scratch space of at
-// least one float64 per passage, all zero, grown when the index numbers its
-// documents further, and left all zero.
+// least two float64 per passage, all zero, grown when the index numbers its
+// documents further, and left all zero: the first half holds the scores,
+// the second one term's weighted frequency (tf~ of Search's formula).
 func (p *bm25Params) rank(r index.IndexReader, terms [][]byte, k int, accp *[]float64) ([]scoredDoc, error) {
-	acc := *accp
-	var touched []uint64
+	acc, wtf := halves(*accp)
+	var touched, termDocs []uint64
 	ctx := context.Background()
 	var tfd index.TermFieldDoc
 	defer func() {
 		for _, d := range touched {
 			acc[d] = 0
 		}
-	}()
-	for _, f := range p.fields {
-		if f.boost == 0 || f.docs == 0 {
-			continue
+		for _, d := range termDocs {
+			wtf[d] = 0
 		}
-		norm := p.k1 * (1 - p.b) // k1·(1−b) + k1·b·dl/avgdl_f, split
-		perLen := p.k1 * p.b / f.avgdl
-		for _, t := range terms {
+	}()
+	for _, t := range terms {
+		termDocs = termDocs[:0]
+		for _, f := range p.fields {
+			if f.weight == 0 || f.avgdl == 0 {
+				continue
+			}
+			// w_f · tf / (1 − b + b · dl/avgdl_f), with the denominator
+			// split.
+			norm := 1 - p.b
+			perLen := p.b / f.avgdl
 			tfr, err := r.TermFieldReader(ctx, t, f.name, true, true, false)
 			if err != nil {
 				return nil, err
 			}
-			n := float64(tfr.Count())
-			if n == 0 {
-				tfr.Close()
-				continue
-			}
-			w := f.boost * math.Log(1+(float64(f.docs)-n+0.5)/(n+0.5))
 			for {
 				d, err := tfr.Next(&tfd)
 				if err != nil {
@@ -335,19 +396,32 @@ func (p *bm25Params) rank(r index.IndexReader, terms [][]byte, k int, accp *[]fl
 				if doc >= uint64(len(acc)) {
 					// An index updated in place numbers its documents
 					// past the passage count (deleted ones keep theirs).
-					grown := make([]float64, doc+1+doc/4)
-					copy(grown, acc)
-					acc = grown
+					grown := make([]float64, 2*(doc+1+doc/4))
+					na, nw := halves(grown)
+					copy(na, acc)
+					copy(nw, wtf)
+					acc, wtf = na, nw
 					*accp = grown
 				}
-				if acc[doc] == 0 {
-					touched = append(touched, doc)
+				if wtf[doc] == 0 {
+					termDocs = append(termDocs, doc)
 				}
-				tf := float64(d.Freq)
-				acc[doc] += w * tf / (tf + norm + perLen*fieldLength(d.Norm))
+				wtf[doc] += f.weight * float64(d.Freq) / (norm + perLen*fieldLength(d.Norm))
 			}
 			tfr.Close()
 		}
+		// n(t): the passages with t in any field.
+		n := float64(len(termDocs))
+		idf := math.Log(1 + (float64(p.docs)-n+0.5)/(n+0.5))
+		for _, doc := range termDocs {
+			x := wtf[doc]
+			wtf[doc] = 0
+			if acc[doc] == 0 {
+				touched = append(touched, doc)
+			}
+			acc[doc] += idf * x / (p.k1 + x)
+		}
+		termDocs = termDocs[:0]
 	}
 	// The best k in a min-heap whose root is the worst kept so far.
 	worse := func(a, b scoredDoc) bool { return a.score < b.score || a.score == b.score && a.doc > b.doc }

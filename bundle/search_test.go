@@ -36,50 +36,62 @@ func TestToyWordsUnchanged(t *testing.T) {
 	}
 }
 
-// TestBM25HandComputed checks Search's scores against BM25 computed by hand
-// for the toy corpus (toyPassages).
+// TestBM25HandComputed checks Search's scores against BM25F computed by
+// hand (with a calculator, from the formula) for the toy corpus
+// (toyPassages).
 //
-// Formula: Robertson and Zaragoza, "The Probabilistic Relevance Framework:
-// BM25 and Beyond" (2009), section 3.4, the BM25 term weight
-// tf / (k1·((1−b) + b·dl/avdl) + tf) times an IDF, here Lucene's
-// ln(1 + (N − n + 0.5)/(n + 0.5)); per field with boost w, summed.
-// k1 = 1.2, b = 0.75; w = 2.0 title, 1.5 heading, 1.0 text.
+// Formula: BM25F as Robertson, Zaragoza and Taylor give it ("Simple BM25
+// Extension to Multiple Weighted Fields", CIKM 2004) and Robertson and
+// Zaragoza restate it ("The Probabilistic Relevance Framework: BM25 and
+// Beyond", 2009, section 3.3): per passage and term,
+// tf~ = Σ_f w_f · tf_f / ((1 − b) + b · dl_f/avgdl_f), and the term adds
+// idf · tf~ / (k1 + tf~), with one idf per term over passages, here
+// Lucene's ln(1 + (N − n + 0.5)/(n + 0.5)), n the passages with the term in
+// any field. k1 = 1.2, b = 0.75; w = 2.0 title, 1.5 heading, 1.0 text.
 //
-// Field statistics (N: passages with tokens in the field; avgdl: tokens / N):
+// Field statistics (avgdl: tokens over all N = 5 passages):
 //
-//	field    passages: tokens                    N  tokens  avgdl
-//	title    a1 b1 c1 d1 e1                      5    5     1
-//	heading  b1 ("cargo") c2 ("cargo door") d1   3    4     1.333333
-//	text     a3 b5 c2 d1 e6                      5   17     3.4
+//	field    passages: tokens                    tokens  avgdl
+//	title    a1 b1 c1 d1 e1                        5     1
+//	heading  b1 ("cargo") c2 ("cargo door") d1     4     0.8
+//	text     a3 b5 c2 d1 e6                       17     3.4
 //
-// Term contributions, w · idf · tf / (tf + k1·(1 − b + b·dl/avgdl)):
+// Per field, w · tf / B with B = 0.25 + 0.75 · dl/avgdl; per passage the sum
+// tf~ and the contribution idf · tf~/(1.2 + tf~):
 //
-//	query "truck"
-//	term   field    N  n  idf          doc tf dl avgdl     contribution
-//	truck  text     5  3  0.538996501  a   2  3  3.4       0.348400780
-//	truck  text     5  3  0.538996501  b   1  5  3.4       0.205447097
-//	truck  text     5  3  0.538996501  d   1  1  3.4       0.344471448
-//	ranking a 0.348400780, d 0.344471448, b 0.205447097
+//	query "truck" (n = 3, idf = ln(1 + 2.5/3.5) = 0.538996501)
+//	a  text tf 2 dl 3: B 0.911764706, 2.193548387   tf~ 2.193548387  0.348400780
+//	b  text tf 1 dl 5: B 1.352941176, 0.739130435   tf~ 0.739130435  0.205447097
+//	d  text tf 1 dl 1: B 0.470588235, 2.125000000   tf~ 2.125000000  0.344471448
+//	ranking a 0.348400780, d 0.344471448, b 0.205447097 (one field:
+//	BM25F is BM25, and these equal the per-field scores)
 //
-//	query "the doors and seals" (terms door, seal; "the", "and" are stop words)
-//	door   heading  3  1  0.980829253  c   1  2  1.333333  0.555186370 (w 1.5)
-//	door   text     5  2  0.875468737  b   1  5  3.4       0.333698846
-//	door   text     5  2  0.875468737  c   1  2  3.4       0.478552043
-//	seal   text     5  2  0.875468737  a   1  3  3.4       0.418060914
-//	seal   text     5  2  0.875468737  b   1  5  3.4       0.333698846
-//	ranking c 1.033738413, b 0.667397692, a 0.418060914
+//	query "the doors and seals" (terms door, seal; "the", "and" are stop
+//	words; both n = 2, idf = ln(1 + 3.5/2.5) = 0.875468737)
+//	door b  text 0.739130435                        tf~ 0.739130435  0.333698846
+//	door c  heading tf 1 dl 2: B 2.125, 1.5/2.125 = 0.705882353
+//	        text tf 1 dl 2: B 0.691176471, 1.446808511
+//	                                                tf~ 2.152690864  0.562119691
+//	seal a  text tf 1 dl 3: 1.096774194             tf~ 1.096774194  0.418060914
+//	seal b  text 0.739130435                        tf~ 0.739130435  0.333698846
+//	ranking b 0.667397692, c 0.562119691, a 0.418060914
 //
-//	query "cargo depot"
-//	depot  title    5  2  0.875468737  c   1  1  1         0.795880670 (w 2)
-//	depot  title    5  2  0.875468737  d   1  1  1         0.795880670 (w 2)
-//	cargo  heading  3  2  0.470003629  b   1  1  1.333333  0.356964782 (w 1.5)
-//	cargo  heading  3  2  0.470003629  c   1  2  1.333333  0.266039790 (w 1.5)
-//	cargo  text     5  1  1.386294361  c   1  2  3.4       0.757781484
-//	ranking c 1.819701944, d 0.795880670, b 0.356964782
+//	query "cargo depot" (both n = 2, idf 0.875468737)
+//	cargo b heading tf 1 dl 1: B 1.1875, 1.263157895 tf~ 1.263157895 0.448958327
+//	cargo c heading 0.705882353 + text 1.446808511   tf~ 2.152690864 0.562119691
+//	depot c title tf 1 dl 1: B 1, 2.0                tf~ 2.0         0.547167961
+//	depot d title 2.0                                tf~ 2.0         0.547167961
+//	ranking c 1.109287652, d 0.547167961, b 0.448958327
 //
-// One line worked through: "truck" in a: idf = ln(1 + 2.5/3.5) = 0.5389965;
-// K = 1.2·(0.25 + 0.75·3/3.4) = 1.0941176; 2/(2 + K) = 0.6463878;
-// 0.6463878 · 0.5389965 = 0.3484008.
+// The second query shows the saturation BM25F adds: with per-field sums, c's
+// "door" in heading and text scored 0.555 + 0.479 = 1.034 and beat b; now
+// the two occurrences saturate together (0.562) and b, which holds both
+// words, ranks first.
+//
+// One line worked through: "door" in c: heading B = 0.25 + 0.75·2/0.8 =
+// 2.125, 1.5·1/2.125 = 0.7058824; text B = 0.25 + 0.75·2/3.4 = 0.6911765,
+// 1/0.6911765 = 1.4468085; tf~ = 2.1526909; 2.1526909/3.3526909 = 0.6420777;
+// · 0.8754687 = 0.5621197.
 func TestBM25HandComputed(t *testing.T) {
 	dir := filepath.Join(t.TempDir(), "toy")
 	mustWrite(t, dir, &Input{Passages: toyPassages()})
@@ -93,8 +105,8 @@ func TestBM25HandComputed(t *testing.T) {
 		want  []hit
 	}{
 		{"truck", []hit{{"a", 0.348400780}, {"d", 0.344471448}, {"b", 0.205447097}}},
-		{"the doors and seals", []hit{{"c", 1.033738413}, {"b", 0.667397692}, {"a", 0.418060914}}},
-		{"cargo depot", []hit{{"c", 1.819701944}, {"d", 0.795880670}, {"b", 0.356964782}}},
+		{"the doors and seals", []hit{{"b", 0.667397692}, {"c", 0.562119691}, {"a", 0.418060914}}},
+		{"cargo depot", []hit{{"c", 1.109287652}, {"d", 0.547167961}, {"b", 0.448958327}}},
 	}
 	for _, tt := range tests {
 		t.Run(tt.query, func(t *testing.T) {
@@ -142,12 +154,12 @@ func TestAverageLengthMatters(t *testing.T) {
 		t.Fatal(err)
 	}
 	// search/searcher/search_term.go, bm25ScoreMetrics.
-	bleveAvg := math.Ceil(float64(card) / float64(b.params.fields[2].docs))
+	bleveAvg := math.Ceil(float64(card) / float64(b.params.docs))
 	if card != 10 || bleveAvg != 2 {
 		t.Fatalf("text field: %d distinct terms, bleve's avgdl %v; want 10 and 2", card, bleveAvg)
 	}
 	ids := func(p bm25Params) []string {
-		acc := make([]float64, 5)
+		acc := make([]float64, 10)
 		top, err := p.rank(r, [][]byte{[]byte("truck")}, 3, &acc)
 		if err != nil {
 			t.Fatal(err)
@@ -422,6 +434,7 @@ func FuzzSearch(f *testing.F) {
 // to 1e-12 relative.
 func TestBM25Oracle(t *testing.T) {
 	ps := genPassages(2300, 3)
+	ps[5].Terms = []build.Term{{Text: "zz_defined.termName", Anchor: "zz"}}
 	dir := filepath.Join(t.TempDir(), "gen")
 	mustWrite(t, dir, &Input{Passages: ps})
 	b := mustOpen(t, dir)
@@ -429,12 +442,17 @@ func TestBM25Oracle(t *testing.T) {
 	slices.SortFunc(ps, func(x, y build.Passage) int { // passages.jsonl order
 		return cmp.Or(strings.Compare(x.Path, y.Path), x.Line-y.Line, strings.Compare(x.ID, y.ID))
 	})
-	boosts := map[string]float64{"title": 2, "heading": 1.5, "text": 1}
+	weights := map[string]float64{"title": 2, "heading": 1.5, "text": 1}
 	tf := map[string][]map[string]int{} // field -> passage -> term -> tf
 	dl := map[string][]int{}
+	avg := map[string]float64{}
 	for _, f := range searchFields {
 		for _, p := range ps {
-			v := map[string]string{"title": p.Title, "heading": strings.Join(p.Heading, " > "), "text": p.Text}[f]
+			heading := strings.Join(p.Heading, " > ")
+			for _, term := range p.Terms {
+				heading += "\n" + term.Text
+			}
+			v := map[string]string{"title": p.Title, "heading": heading, "text": p.Text}[f]
 			m := map[string]int{}
 			toks := a.Analyze([]byte(v))
 			for _, tok := range toks {
@@ -442,6 +460,7 @@ func TestBM25Oracle(t *testing.T) {
 			}
 			tf[f] = append(tf[f], m)
 			dl[f] = append(dl[f], len(toks))
+			avg[f] += float64(len(toks)) / float64(len(ps))
 		}
 	}
 	type scored struct {
@@ -450,27 +469,23 @@ func TestBM25Oracle(t *testing.T) {
 	}
 	oracle := func(q string) []scored {
 		score := make([]float64, len(ps))
-		for _, f := range searchFields {
-			var nf, tokens int
-			for _, l := range dl[f] {
-				if l > 0 {
-					nf++
-					tokens += l
+		for _, term := range queryTerms(a, q) {
+			x := make([]float64, len(ps))
+			n := 0
+			for i := range ps {
+				for _, f := range searchFields {
+					if c := float64(tf[f][i][string(term)]); c > 0 {
+						x[i] += weights[f] * c / (1 - 0.75 + 0.75*float64(dl[f][i])/avg[f])
+					}
+				}
+				if x[i] > 0 {
+					n++
 				}
 			}
-			avg := float64(tokens) / float64(nf)
-			for _, term := range queryTerms(a, q) {
-				n := 0
-				for _, m := range tf[f] {
-					if m[string(term)] > 0 {
-						n++
-					}
-				}
-				idf := math.Log(1 + (float64(nf)-float64(n)+0.5)/(float64(n)+0.5))
-				for i, m := range tf[f] {
-					if c := float64(m[string(term)]); c > 0 {
-						score[i] += boosts[f] * idf * c / (c + 1.2*(1-0.75+0.75*float64(dl[f][i])/avg))
-					}
+			idf := math.Log(1 + (float64(len(ps))-float64(n)+0.5)/(float64(n)+0.5))
+			for i := range ps {
+				if x[i] > 0 {
+					score[i] += idf * x[i] / (1.2 + x[i])
 				}
 			}
 		}
@@ -494,14 +509,22 @@ func TestBM25Oracle(t *testing.T) {
 			t.Errorf("only %d hits in all: the queries test little", total)
 		}
 	}()
-	for i := 0; i < 40; i++ {
+	for i := 0; i < 41; i++ {
+		if i == 40 {
+			q := "termName zz defined" // parts of the defined term
+			hits, err := b.Search(q, 10)
+			if err != nil || len(hits) == 0 || hits[0].ID != "p000005" {
+				t.Errorf("query %q: %v %v, want p000005 first", q, hits, err)
+			}
+			continue
+		}
 		p := ps[(i*977)%len(ps)]
 		words := strings.Fields(p.Text)
 		q := words[i%len(words)] + " " + p.Heading[1] + " " + words[(i*7)%len(words)]
 		if i%5 == 0 {
 			q = strings.Fields(p.Title)[0]
 		}
-		hits, err := b.Search(q, 10)
+		hits, err := b.search(q, 10, false) // the nearness bonus: TestNearness
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -637,5 +660,77 @@ func TestOddIDs(t *testing.T) {
 	want := slices.Sorted(slices.Values(ids))
 	if !slices.Equal(got, want) {
 		t.Errorf("got %q, want %q", got, want)
+	}
+}
+
+// TestOpenWithoutLinesFile checks that a bundle whose passages.lines is
+// missing or does not match passages.jsonl (made before the file existed,
+// or damaged) opens by reading passages.jsonl and finds the same passages.
+func TestOpenWithoutLinesFile(t *testing.T) {
+	dir := filepath.Join(t.TempDir(), "gen")
+	mustWrite(t, dir, &Input{Passages: genPassages(300, 5)})
+	want := func() []Hit {
+		b := mustOpen(t, dir)
+		hits, err := b.Search("guide", 20)
+		if err != nil || len(hits) == 0 {
+			t.Fatalf("%v, %v", hits, err)
+		}
+		return hits
+	}()
+	lines := filepath.Join(dir, LinesFile)
+	data, err := os.ReadFile(lines)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for name, damage := range map[string]func() error{
+		"missing":   func() error { return os.Remove(lines) },
+		"cut short": func() error { return os.WriteFile(lines, data[:len(data)/2], 0o644) },
+		"other size": func() error {
+			d := slices.Clone(data)
+			d[len(linesMagic)]++
+			return os.WriteFile(lines, d, 0o644)
+		},
+	} {
+		t.Run(name, func(t *testing.T) {
+			if err := damage(); err != nil {
+				t.Fatal(err)
+			}
+			b := mustOpen(t, dir)
+			got, err := b.Search("guide", 20)
+			if err != nil || !slices.EqualFunc(got, want, func(x, y Hit) bool { return x.ID == y.ID && x.Score == y.Score && x.Text == y.Text }) {
+				t.Errorf("got %d hits (%v), want %d", len(got), err, len(want))
+			}
+		})
+	}
+}
+
+// TestNearness checks the nearness bonus of Search's doc comment on values
+// worked out by hand (our own measure: no published source).
+func TestNearness(t *testing.T) {
+	a := theAnalyzer()
+	terms := func(q string) [][]byte { return queryTerms(a, q) }
+	tests := []struct {
+		heading, query string
+		want           float64
+	}{
+		// m = 2 of |Q| = 2, side by side (s = 2): 2/2 · 2/2.
+		{"Cargo > Door", "cargo door", 1},
+		// m = 2 of 3 ("van" missing), s = 2: 2/3 · 2/2.
+		{"Cargo > Door", "cargo door van", 2.0 / 3},
+		// m = 2 of 2, s = 4 (cargo at 1, door at 4): 1 · 2/4.
+		{"Cargo > Yard > Depot > Door", "door cargo", 0.5},
+		// The smallest window: cargo 1, door 2, cargo 5: s = 2.
+		{"cargo door crew van cargo", "cargo door", 1},
+		// One term only: no bonus; nor for a one-term query.
+		{"Cargo > Depot", "cargo door", 0},
+		{"Cargo > Door", "cargo", 0},
+		// An identifier's parts share its position: os.path.join holds
+		// "path" and "join" at one position, s = 1 < m, taken as m.
+		{"os.path.join", "path join", 1},
+	}
+	for _, tt := range tests {
+		if got := nearness(a, tt.heading, terms(tt.query)); math.Abs(got-tt.want) > 1e-12 {
+			t.Errorf("heading %q, query %q: %v, want %v", tt.heading, tt.query, got, tt.want)
+		}
 	}
 }

@@ -201,7 +201,7 @@ func encodeLines(ps []build.Passage, order []int) ([][]byte, error) {
 // files.
 func reserved(name string) bool {
 	switch name {
-	case ManifestFile, PassagesFile, SchemaFile, IndexDir, DeltaFile:
+	case ManifestFile, PassagesFile, LinesFile, SchemaFile, IndexDir, DeltaFile:
 		return true
 	}
 	return strings.HasPrefix(name, IndexDir+"/")
@@ -469,6 +469,17 @@ func writeTree(dir string, in *Input) (*Manifest, *catalog, error) {
 	}
 	m.BundleID = strings.TrimPrefix(m.Files[PassagesFile], "sha256:")
 	cat.BundleID = m.BundleID
+
+	// passages.lines: where each line lies, for Open.
+	ids := make([]string, len(cat.Entries))
+	spans := make([]span, len(cat.Entries))
+	for j, e := range cat.Entries {
+		ids[j], spans[j] = e.ID, span{e.Off, int(e.Len) - 1} // without its newline
+	}
+	m.Files[LinesFile], err = writeFile(dir, LinesFile, func(w io.Writer) error { return encodeLineTable(w, ids, spans, cat.Size) })
+	if err != nil {
+		return nil, nil, err
+	}
 
 	// delta.json: what changed against the bundle this one replaces.
 	prior := &catalog{}

@@ -34,12 +34,12 @@ func TestPage(t *testing.T) {
 		want, notWant              []string
 	}{
 		{name: "empty query shows the bundle", target: "/", status: 200,
-			want:    []string{`<input id="q" name="q" type="search" value=""`, "<th>bundle id</th><td><code>" + id, "<th>built at</th><td>2026-06-01T12:00:00Z", "<th>passages</th><td>6</td>", "kbc test"},
+			want:    []string{`<input id="q" name="q" type="search" value=""`, "<th>bundle id</th><td><code>" + id, "<th>built at</th><td>2026-06-01T12:00:00Z", "<th>passages</th><td>8</td>", "kbc test"},
 			notWant: []string{`class="hit"`}},
 		{name: "blank query shows the bundle", target: "/?q=++", status: 200, want: []string{"<th>passages</th>"}},
 		{name: "query", target: "/?q=gangway+ticket", status: 200,
 			want: []string{`value="gangway ticket"`, `<span class="rank">#1</span>`, `<code class="ref">boarding.md#ticket-checks-at-the-gangway</code>`,
-				"lines 8–15", "Boarding the harbour ferry › Boarding › Ticket checks at the gangway", "owner: terminal-ops", `st-fresh`, ">fresh<",
+				"lines 8–11", "Boarding the harbour ferry › Boarding › Ticket checks at the gangway", "owner: terminal-ops", `st-fresh`, ">fresh<",
 				"Deckhands check every ticket at the gangway before the ramp is raised."}},
 		{name: "no hits", target: "/?q=zebra+giraffe", status: 200, want: []string{"No passage matches <q>zebra giraffe</q>"}},
 		{name: "stop words only", target: "/?q=the+of", status: 200, want: []string{"No passage matches"}},

@@ -1,5 +1,5 @@
 // Command kbc-bench measures kbc on real documentation corpora and prints
-// two tables.
+// three tables.
 //
 // The first has one row per corpus: files, MB, passages, and the time,
 // MB/s and peak resident memory of a clean build (no bundle, no build
@@ -9,14 +9,21 @@
 // RSS is that build's alone. Corpora are copied to a temporary folder
 // first, so the edits never touch the originals.
 //
-// The second is watch latency on one corpus: kbc watch runs as a child
+// The second is query latency: all corpora together are built into one
+// bundle, and a fresh kbc query process is run -queries times on it (each
+// of a few questions in turn); the table gives the passages and the p50,
+// p95 and max wall time from process start to exit (the results printed),
+// and the mean CPU time (user + system) per process, which a busy machine
+// disturbs less than wall time.
+//
+// The third is watch latency on one corpus: kbc watch runs as a child
 // process, a page is edited -edits times, and for each edit the time from
 // the write to the rebuilt bundle being in place (the watch line that
 // reports it) is taken; p50 and p95 are printed.
 //
 // Usage:
 //
-//	go run ./cmd/kbc-bench -corpora DIR [-runs 3] [-watch python-3.11-html] [-edits 50] [-kbc PATH]
+//	go run ./cmd/kbc-bench -corpora DIR [-runs 3] [-queries 60] [-watch python-3.11-html] [-edits 50] [-kbc PATH]
 //
 // DIR is the folder ../shared/corpora/get-corpora.sh filled. Without -kbc
 // the program builds ./cmd/kbc into a temporary folder first.
@@ -44,8 +51,9 @@ func main() {
 	kbc := flag.String("kbc", "", "kbc binary to measure (default: build ./cmd/kbc)")
 	watchCorpus := flag.String("watch", "python-3.11-html", "corpus for the watch latency table (empty: skip it)")
 	edits := flag.Int("edits", 50, "edits for the watch latency table")
+	queries := flag.Int("queries", 60, "kbc query processes for the query latency table (0: skip it)")
 	flag.Parse()
-	b := &bench{runs: *runs, kbc: *kbc, w: os.Stdout}
+	b := &bench{runs: *runs, kbc: *kbc, queries: *queries, w: os.Stdout}
 	if err := b.run(*corpora, *watchCorpus, *edits); err != nil {
 		fmt.Fprintln(os.Stderr, "kbc-bench:", err)
 		os.Exit(1)
@@ -53,10 +61,11 @@ func main() {
 }
 
 type bench struct {
-	runs int
-	kbc  string
-	tmp  string
-	w    io.Writer
+	runs    int
+	queries int
+	kbc     string
+	tmp     string
+	w       io.Writer
 }
 
 // summary is the part of kbc build --json that the table needs.
@@ -103,9 +112,45 @@ func (b *bench) run(corpora, watchCorpus string, edits int) error {
 			return err
 		}
 	}
+	if b.queries > 0 {
+		if err := b.query(filepath.Join(b.tmp, "src")); err != nil {
+			return err
+		}
+	}
 	if watchCorpus != "" {
 		return b.watch(filepath.Join(b.tmp, "src", watchCorpus), edits)
 	}
+	return nil
+}
+
+// latencyQueries are asked in turn by the query latency table: an
+// identifier, a question, a phrase from reference docs.
+var latencyQueries = []string{"os.path.join", "how do I undo the last commit", "configuration file format", "install on windows"}
+
+// query builds every corpus under src into one bundle and times fresh kbc
+// query processes on it.
+func (b *bench) query(src string) error {
+	out := filepath.Join(b.tmp, "out-all")
+	_, _, sum, err := b.build(src, out)
+	if err != nil {
+		return err
+	}
+	var walls []float64
+	var cpu float64
+	for i := 0; i < b.queries; i++ {
+		cmd := exec.Command(b.kbc, "query", out, latencyQueries[i%len(latencyQueries)], "-k", "10")
+		cmd.Stdout = io.Discard
+		start := time.Now()
+		if err := cmd.Run(); err != nil {
+			return fmt.Errorf("kbc query: %w", err)
+		}
+		walls = append(walls, time.Since(start).Seconds()*1000)
+		cpu += (cmd.ProcessState.UserTime() + cmd.ProcessState.SystemTime()).Seconds() * 1000
+	}
+	sort.Float64s(walls)
+	fmt.Fprintf(b.w, "\n| query latency | passages | processes | p50 ms | p95 ms | max ms | CPU ms/process |\n|---|---|---|---|---|---|---|\n")
+	fmt.Fprintf(b.w, "| all corpora | %d | %d | %.1f | %.1f | %.1f | %.1f |\n", sum.Stats.Passages, len(walls),
+		walls[len(walls)/2], walls[min(len(walls)-1, len(walls)*95/100)], walls[len(walls)-1], cpu/float64(len(walls)))
 	return nil
 }
 
