@@ -2,6 +2,8 @@ package preview
 
 import (
 	"bufio"
+	"context"
+	"encoding/json"
 	"errors"
 	"io"
 	"net/http"
@@ -13,6 +15,9 @@ import (
 	"sync"
 	"testing"
 	"time"
+
+	"github.com/kbc-project/kbc/build"
+	"github.com/kbc-project/kbc/bundle"
 )
 
 // get serves one request through s's handler.
@@ -459,5 +464,41 @@ func TestAudience(t *testing.T) {
 			t.Errorf("audiences %q: pay page shown %v, want %v\n%s", tt.audiences, strings.Contains(body, "crew/pay.md"), tt.want, body)
 		}
 		s.Close()
+	}
+}
+
+// TestConflictShown: a hit whose copy elsewhere states another figure
+// says so, naming the copy and the words, as kbc query does.
+func TestConflictShown(t *testing.T) {
+	page := func(n string) string {
+		return "---\ntitle: Drill\nupdated: 2026-05-01\n---\n# Drill\n\n## Monthly drill\n\nEvery crew member fastens a lifejacket in under " + n + " seconds during the monthly drill, and the master signs the drill log.\n"
+	}
+	docs := map[string]string{"safety/drill.md": page("40"), "crew/drill.md": page("60")}
+	src := writeDocs(t, docs)
+	out := filepath.Join(t.TempDir(), "bundle")
+	opts := build.DefaultOptions()
+	opts.Now = testNow
+	res, err := build.Run(context.Background(), os.DirFS(src), opts)
+	if err != nil {
+		t.Fatal(err)
+	}
+	dup, err := json.Marshal(res.Duplicates)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := bundle.Write(out, &bundle.Input{Passages: res.Passages, Files: map[string][]byte{bundle.DuplicatesJSON: dup}}); err != nil {
+		t.Fatal(err)
+	}
+	s, err := New(out)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer s.Close()
+	body := get(t, s, "GET", "/results?q=lifejacket+drill", "").Body.String()
+	for _, want := range []string{`disputed by <code>safety/drill.md#monthly-drill</code>: “40 seconds” there, “60 seconds” here`,
+		`disputed by <code>crew/drill.md#monthly-drill</code>: “60 seconds” there, “40 seconds” here`} {
+		if !strings.Contains(body, want) {
+			t.Errorf("results lack %s:\n%s", want, body)
+		}
 	}
 }

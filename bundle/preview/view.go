@@ -49,6 +49,7 @@ type hitView struct {
 	Expires       string
 	Owner         string
 	AlsoAt        []string
+	Conflicts     []conflictView // other copies that state other facts
 	Snippet       string
 	Cut           bool // the snippet is not the whole text
 }
@@ -88,8 +89,22 @@ func (s *Server) view(h *handle, query string, k int) *page {
 	v.Hits = make([]hitView, len(hits))
 	for i, hit := range hits {
 		v.Hits[i] = newHitView(i+1, hit.Score, &hit.Passage, now, h.dueSoon)
+		for _, c := range hit.Conflict {
+			cv := conflictView{With: c.With}
+			for _, d := range c.Differences {
+				cv.Words = append(cv.Words, fmt.Sprintf("“%s” there, “%s” here", d.There, d.Here))
+			}
+			v.Hits[i].Conflicts = append(v.Hits[i].Conflicts, cv)
+		}
 	}
 	return v
+}
+
+// conflictView is a copy that disagrees with a hit, and the differing
+// words.
+type conflictView struct {
+	With  string   // path#anchor of the other copy
+	Words []string // e.g. “90 days” there, “30 days” here
 }
 
 // statusLabels are the statuses as the page names them.
