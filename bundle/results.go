@@ -1,10 +1,12 @@
 package bundle
 
 import (
+	"bufio"
 	"cmp"
 	"encoding/json"
 	"errors"
 	"fmt"
+	"io"
 	"io/fs"
 	"os"
 	"path/filepath"
@@ -177,17 +179,18 @@ func (b *Bundle) conflicts() (conflictSet, error) {
 // canonical side is marked.
 func readConflicts(dir string) (conflictSet, map[string]bool, error) {
 	name := filepath.Join(dir, filepath.FromSlash(DuplicatesJSON))
-	data, err := os.ReadFile(name)
+	f, err := os.Open(name)
 	if errors.Is(err, fs.ErrNotExist) {
 		return nil, nil, nil
 	}
 	if err != nil {
 		return nil, nil, err
 	}
+	defer f.Close()
 	var rep struct {
 		Divergent []build.DivergentCopy `json:"divergent"`
 	}
-	if err := json.Unmarshal(data, &rep); err != nil {
+	if rep.Divergent, err = readDivergent(f); err != nil {
 		return nil, nil, fmt.Errorf("%s: %w", name, err)
 	}
 	set := conflictSet{}
@@ -205,4 +208,30 @@ func readConflicts(dir string) (conflictSet, map[string]bool, error) {
 		canonical[d.Canonical.ID] = true
 	}
 	return set, canonical, nil
+}
+
+// readDivergent decodes the "divergent" list of a duplicate report and
+// stops there: the report writes it before the clusters, which on a large
+// bundle are megabytes that a query does not need.
+func readDivergent(r io.Reader) ([]build.DivergentCopy, error) {
+	dec := json.NewDecoder(bufio.NewReader(r))
+	if t, err := dec.Token(); err != nil || t != json.Delim('{') {
+		return nil, fmt.Errorf("not a duplicate report (%v)", err)
+	}
+	for dec.More() {
+		t, err := dec.Token()
+		if err != nil {
+			return nil, err
+		}
+		if t == "divergent" {
+			var d []build.DivergentCopy
+			err := dec.Decode(&d)
+			return d, err
+		}
+		var skip json.RawMessage
+		if err := dec.Decode(&skip); err != nil {
+			return nil, err
+		}
+	}
+	return nil, nil
 }
