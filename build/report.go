@@ -95,21 +95,6 @@ var ageBuckets = []AgeBucket{
 	{Label: "3 years or more", MinDays: 1095},
 }
 
-// severity orders statuses from worst to best.
-func severity(s fresh.Status) int {
-	switch s {
-	case fresh.Expired:
-		return 0
-	case fresh.Stale:
-		return 1
-	case fresh.Unknown:
-		return 2
-	case fresh.DueSoon:
-		return 3
-	}
-	return 4
-}
-
 // NewStalenessReport builds the report for docs (whose Info was computed
 // at now under policy p): worst first, then most overdue, then path.
 func NewStalenessReport(docs []DocFreshness, now time.Time, p fresh.Policy) *StalenessReport {
@@ -134,7 +119,7 @@ func NewStalenessReport(docs []DocFreshness, now time.Time, p fresh.Policy) *Sta
 	}
 	sort.SliceStable(r.Documents, func(i, j int) bool {
 		a, b := r.Documents[i], r.Documents[j]
-		if sa, sb := severity(a.Status), severity(b.Status); sa != sb {
+		if sa, sb := a.Status.Severity(), b.Status.Severity(); sa != sb {
 			return sa < sb
 		}
 		if a.OverdueDays != b.OverdueDays {

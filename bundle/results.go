@@ -106,7 +106,7 @@ func (b *Bundle) Query(query string, opts SearchOptions) ([]Hit, error) {
 		slices.SortStableFunc(kept, func(x, y Hit) int {
 			return cmp.Or(cmp.Compare(y.Score, x.Score),
 				cmp.Compare(canonicalRank(&x), canonicalRank(&y)),
-				cmp.Compare(statusRank(x.Status), statusRank(y.Status)),
+				cmp.Compare(y.Status.Severity(), x.Status.Severity()),
 				y.Updated.Compare(x.Updated))
 		})
 		return kept[:min(k, len(kept))], nil
@@ -134,21 +134,6 @@ func canonicalRank(h *Hit) int {
 		return 0
 	}
 	return 1
-}
-
-// statusRank orders statuses from freshest to worst.
-func statusRank(s fresh.Status) int {
-	switch s {
-	case fresh.Fresh:
-		return 0
-	case fresh.DueSoon:
-		return 1
-	case fresh.Unknown:
-		return 2
-	case fresh.Stale:
-		return 3
-	}
-	return 4 // expired
 }
 
 // dueSoon returns the due-soon window the bundle was built with.

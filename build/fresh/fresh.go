@@ -118,6 +118,23 @@ const (
 	Unknown Status = "unknown"  // no date from any source
 )
 
+// Severity orders statuses from worst to best: 0 for expired, then stale,
+// unknown, due soon, and 4 for fresh. Reports list the worst first;
+// search prefers the freshest of equally relevant copies.
+func (s Status) Severity() int {
+	switch s {
+	case Expired:
+		return 0
+	case Stale:
+		return 1
+	case Unknown:
+		return 2
+	case DueSoon:
+		return 3
+	}
+	return 4
+}
+
 // Info is what Evaluate found out about one page. Times are UTC.
 type Info struct {
 	Updated       time.Time  `json:"updated,omitzero"`
