@@ -96,7 +96,7 @@ func joinRuns(input []byte, ts analysis.TokenStream) analysis.TokenStream {
 		}
 		return false
 	}
-	var out analysis.TokenStream
+	out := make(analysis.TokenStream, 0, len(ts)+len(ts)/16)
 	for i := 0; i < len(ts); {
 		j := i
 		for j+1 < len(ts) && joined(j) {
@@ -119,10 +119,10 @@ func joinRuns(input []byte, ts analysis.TokenStream) analysis.TokenStream {
 
 // splitParts follows each token that has parts (see kbcAnalyzer) by them.
 func splitParts(ts analysis.TokenStream) analysis.TokenStream {
-	var out analysis.TokenStream
+	out := make(analysis.TokenStream, 0, len(ts)+len(ts)/8)
 	for _, t := range ts {
 		out = append(out, t)
-		if t.Type == joinedRun {
+		if t.Type == joinedRun || plainWord(t.Term) {
 			continue
 		}
 		parts := identParts(t.Term)
@@ -136,6 +136,22 @@ func splitParts(ts analysis.TokenStream) analysis.TokenStream {
 		}
 	}
 	return out
+}
+
+// plainWord reports, cheaply, whether term certainly has no parts: ASCII
+// lower-case letters and digits, with at most its first letter a capital.
+// Most words of prose are; identParts gives such a term no part other
+// than itself.
+func plainWord(term []byte) bool {
+	for i, c := range term {
+		switch {
+		case c >= 'a' && c <= 'z', c >= '0' && c <= '9':
+		case c >= 'A' && c <= 'Z' && i == 0:
+		default:
+			return false
+		}
+	}
+	return true
 }
 
 // identParts returns the parts of an identifier: the runs of letters and

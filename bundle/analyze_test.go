@@ -65,3 +65,19 @@ func FuzzAnalyze(f *testing.F) {
 		}
 	})
 }
+
+// FuzzPlainWord: a term plainWord passes has no part but itself, so
+// skipping identParts for it changes nothing.
+func FuzzPlainWord(f *testing.F) {
+	for _, s := range []string{"word", "Word", "abc123", "123abc", "A1", "", "fooBar", "os.path", "ÉtéÀ", "WORD"} {
+		f.Add(s)
+	}
+	f.Fuzz(func(t *testing.T, s string) {
+		if !plainWord([]byte(s)) {
+			return
+		}
+		if parts := identParts([]byte(s)); len(parts) > 1 || len(parts) == 1 && len(parts[0]) != len(s) {
+			t.Fatalf("%q: plain, but parts %q", s, parts)
+		}
+	})
+}
