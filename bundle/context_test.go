@@ -54,16 +54,18 @@ func TestQueryAudience(t *testing.T) {
 	drv.Audience = "drivers"
 	ops := mkPassage("ops", "c.md", 1, "Seals", nil, "door seal check for the desk")
 	ops.Audience = "control-desk, finance"
-	b := writeWithReports(t, []build.Passage{pub, drv, ops}, nil)
+	open := mkPassage("open", "d.md", 1, "Seals", nil, "door seal check for everyone")
+	open.Audience = "Public"
+	b := writeWithReports(t, []build.Passage{pub, drv, ops, open}, nil)
 	for _, tt := range []struct {
 		audiences []string
 		want      []string
 	}{
-		{nil, []string{"pub"}},
-		{[]string{"drivers"}, []string{"drv", "pub"}},
-		{[]string{"finance"}, []string{"ops", "pub"}},
-		{[]string{"drivers", "control-desk"}, []string{"drv", "ops", "pub"}},
-		{[]string{"Drivers"}, []string{"pub"}}, // labels match exactly
+		{nil, []string{"open", "pub"}},
+		{[]string{"drivers"}, []string{"drv", "open", "pub"}},
+		{[]string{"finance"}, []string{"open", "ops", "pub"}},
+		{[]string{"drivers", "control-desk"}, []string{"drv", "open", "ops", "pub"}},
+		{[]string{"Drivers"}, []string{"open", "pub"}}, // labels match exactly
 	} {
 		hits, err := b.Query("reefer door seal check", SearchOptions{Audiences: tt.audiences, Now: queryNow})
 		if err != nil {

@@ -27,7 +27,7 @@ type SearchOptions struct {
 	// whose page has an audience (front matter "audience") is returned
 	// only to a caller that names it; passages without one are public.
 	// A page may name several audiences ("drivers, dispatch"): naming any
-	// of them is enough.
+	// of them is enough. The label "public" is everyone's.
 	Audiences []string
 	// ExcludeStale drops stale and expired passages; ExcludeExpired drops
 	// expired ones only.
@@ -120,7 +120,7 @@ func visible(label string, audiences []string) bool {
 		return true
 	}
 	for _, a := range strings.Split(label, ",") {
-		if a = strings.TrimSpace(a); a != "" && slices.Contains(audiences, a) {
+		if a = strings.TrimSpace(a); a != "" && (slices.Contains(audiences, a) || strings.EqualFold(a, "public")) {
 			return true
 		}
 	}
