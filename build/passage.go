@@ -38,6 +38,10 @@ type Passage struct {
 	Terms []Term `json:"terms,omitempty"`
 }
 
+// Ref returns "path#anchor", or the path alone when the passage has no
+// anchor: the link an answer cites it by.
+func (p *Passage) Ref() string { return Location{Path: p.Path, Anchor: p.Anchor}.Ref() }
+
 // Term is a defined term and the fragment a link to its definition lands on.
 type Term struct {
 	Text   string `json:"text"`

@@ -106,7 +106,7 @@ func (b *Bundle) Context(question string, opts ContextOptions) (*Context, error)
 	if lambda < 0 || lambda > 1 {
 		return nil, fmt.Errorf("context: lambda %g is not in [0, 1]", lambda)
 	}
-	set := b.contextSettings()
+	set := b.settings()
 	tok := opts.Tokenizer
 	if tok == nil || tok.Name() != set.Tokenizer {
 		var err error
@@ -138,14 +138,11 @@ func (b *Bundle) Context(question string, opts ContextOptions) (*Context, error)
 	}
 	var chosen []choice
 	left := opts.Budget
-	used := make([]bool, len(hits))
-	best := hits[0].Score
 	rel := make([]float64, len(hits))
 	for i := range hits {
-		rel[i] = hits[i].Score / best
+		rel[i] = hits[i].Score / hits[0].Score
 	}
-	var picked []int
-	sim := func(i, j int) float64 { return dedupe.Similarity(hits[i].Text, hits[j].Text, set.Shingle) }
+	m := newMMR(rel, lambda, func(i, j int) float64 { return dedupe.Similarity(hits[i].Text, hits[j].Text, set.Shingle) })
 	// price is what a block adds to the context: its Markdown and the
 	// blank line after it. Summed over blocks it bounds the count of the
 	// whole (no token of cl100k_base spans two blocks but the newlines
@@ -154,13 +151,11 @@ func (b *Bundle) Context(question string, opts ContextOptions) (*Context, error)
 		return tok.Count(renderBlock(len(chosen)+1, h.Path, h.Anchor, h.Line, h.EndLine, h.Updated, warns, text) + "\n")
 	}
 	for left > 0 {
-		pick := mmrPick(rel, used, picked, sim, lambda)
+		pick := m.next()
 		if pick < 0 {
 			break
 		}
-		used[pick] = true
 		h := &hits[pick]
-		picked = append(picked, pick)
 		warn := warnings(h)
 		cost := price(h, warn, h.Text)
 		text, note := h.Text, ""
@@ -169,11 +164,12 @@ func (b *Bundle) Context(question string, opts ContextOptions) (*Context, error)
 				return price(h, append(slices.Clone(warn), sentencesNote(s, h.Text)), s) <= left
 			})
 			if text == "" {
-				picked = picked[:len(picked)-1] // skipped: it takes no part in novelty
+				m.skip(pick) // it takes no part in novelty
 				continue
 			}
 			cost = price(h, append(warn, note), text)
 		}
+		m.take(pick)
 		left -= cost
 		at, _ := b.lines.find(h.ID) // a hit's id is always there
 		chosen = append(chosen, choice{hit: h, text: text, note: note, at: at})
@@ -206,7 +202,7 @@ func (b *Bundle) Context(question string, opts ContextOptions) (*Context, error)
 		slices.SortFunc(g.items, func(x, y choice) int { return cmp.Compare(x.at.off, y.at.off) })
 		first := g.items[0].hit
 		blk := Block{N: len(c.Blocks) + 1, Path: first.Path, Anchor: first.Anchor, Heading: first.Heading,
-			Line: first.Line, EndLine: first.EndLine, Updated: first.Updated, Cite: cite(first.Path, first.Anchor)}
+			Line: first.Line, EndLine: first.EndLine, Updated: first.Updated, Cite: first.Ref()}
 		var texts []string
 		for _, it := range g.items {
 			texts = append(texts, it.text)
@@ -232,30 +228,55 @@ func (b *Bundle) Context(question string, opts ContextOptions) (*Context, error)
 	return c, nil
 }
 
-// mmrPick returns the next candidate by maximal marginal relevance, or -1
-// when every candidate is used: the unused i maximising
+// mmr chooses candidates one at a time by maximal marginal relevance: the
+// next is the unused i maximising
 //
-//	lambda·rel[i] − (1−lambda)·max over j in chosen of sim(i, j)
+//	lambda·rel[i] − (1−lambda)·max over chosen j of sim(i, j)
 //
 // (Carbonell and Goldstein 1998, equation 1: Sim1 is rel, Sim2 is sim;
 // the max term is 0 while nothing is chosen). Ties go to the lower index,
-// the better search rank.
-func mmrPick(rel []float64, used []bool, chosen []int, sim func(i, j int) float64, lambda float64) int {
+// the better search rank. The max term of each candidate is kept up to
+// date as choices are made, so each similarity is computed once.
+type mmr struct {
+	rel, red []float64 // relevance; highest similarity to a chosen one
+	used     []bool
+	lambda   float64
+	sim      func(i, j int) float64
+}
+
+func newMMR(rel []float64, lambda float64, sim func(i, j int) float64) *mmr {
+	return &mmr{rel: rel, red: make([]float64, len(rel)), used: make([]bool, len(rel)), lambda: lambda, sim: sim}
+}
+
+// next returns the next candidate, or -1 when every one is used.
+func (m *mmr) next() int {
 	pick, best := -1, 0.0
-	for i := range rel {
-		if used[i] {
+	for i := range m.rel {
+		if m.used[i] {
 			continue
 		}
-		red := 0.0
-		for _, j := range chosen {
-			red = max(red, sim(i, j))
-		}
-		if score := lambda*rel[i] - (1-lambda)*red; pick < 0 || score > best {
+		if score := m.lambda*m.rel[i] - (1-m.lambda)*m.red[i]; pick < 0 || score > best {
 			pick, best = i, score
 		}
 	}
 	return pick
 }
+
+// take marks i chosen: the others are now compared with it too.
+func (m *mmr) take(i int) {
+	m.used[i] = true
+	if m.lambda == 1 {
+		return // novelty has no weight
+	}
+	for k := range m.rel {
+		if !m.used[k] {
+			m.red[k] = max(m.red[k], m.sim(k, i))
+		}
+	}
+}
+
+// skip marks i used without choosing it (it did not fit).
+func (m *mmr) skip(i int) { m.used[i] = true }
 
 // warnings returns what a reader of h must know, from the status and
 // conflicts Query gave it.
@@ -285,14 +306,6 @@ func warnings(h *Hit) []string {
 	return w
 }
 
-// cite returns "path#anchor", or the path when there is no anchor.
-func cite(path, anchor string) string {
-	if anchor == "" {
-		return path
-	}
-	return path + "#" + anchor
-}
-
 // markdown renders the block as Context's Markdown gives it.
 func (blk *Block) markdown() string {
 	return renderBlock(blk.N, blk.Path, blk.Anchor, blk.Line, blk.EndLine, blk.Updated, blk.Warnings, blk.Text)
@@ -302,7 +315,7 @@ func (blk *Block) markdown() string {
 // quote, then the text. Token costs are counted on exactly this.
 func renderBlock(n int, path, anchor string, line, end int, updated time.Time, warns []string, text string) string {
 	var sb strings.Builder
-	fmt.Fprintf(&sb, "[%d] %s, lines %d-%d", n, cite(path, anchor), line, end)
+	fmt.Fprintf(&sb, "[%d] %s, lines %d-%d", n, build.Location{Path: path, Anchor: anchor}.Ref(), line, end)
 	if !updated.IsZero() {
 		fmt.Fprintf(&sb, ", updated %s", day(updated))
 	}
@@ -429,34 +442,10 @@ func listItem(s string) bool {
 	return i > 0 && i+1 < len(s) && (s[i] == '.' || s[i] == ')') && s[i+1] == ' '
 }
 
-// contextSettings are the build settings Context needs from the manifest.
-type contextSettings struct {
-	AimTokens int
-	Shingle   int
-	Tokenizer string
-}
-
-func (b *Bundle) contextSettings() contextSettings {
-	var s struct {
-		build.Settings
-		Duplicates struct {
-			Shingle int `json:"Shingle"`
-		} `json:"duplicates"`
-	}
-	if len(b.manifest.Settings) > 0 {
-		_ = json.Unmarshal(b.manifest.Settings, &s) // defaults below
-	}
-	return contextSettings{
-		AimTokens: cmp.Or(s.AimTokens, build.DefaultSettings().AimTokens),
-		Shingle:   cmp.Or(s.Duplicates.Shingle, dedupe.DefaultOptions().Shingle),
-		Tokenizer: cmp.Or(s.Tokenizer, build.DefaultSettings().Tokenizer),
-	}
-}
-
 // tokenizer returns the bundle's tokenizer, made on first use.
 func (b *Bundle) tokenizer() (*build.Tokenizer, error) {
 	b.tokOnce.Do(func() {
-		b.tok, b.tokErr = build.NewTokenizer(b.contextSettings().Tokenizer)
+		b.tok, b.tokErr = build.NewTokenizer(b.settings().Tokenizer)
 	})
 	return b.tok, b.tokErr
 }

@@ -192,10 +192,10 @@ func TestMMRWorkedExample(t *testing.T) {
 		lambda float64
 		want   []int
 	}{{0.7, []int{0, 2, 1}}, {1, []int{0, 1, 2}}, {0.2, []int{0, 2, 1}}} {
-		used := make([]bool, 3)
+		m := newMMR(rel, tt.lambda, sim)
 		var chosen []int
-		for p := mmrPick(rel, used, chosen, sim, tt.lambda); p >= 0; p = mmrPick(rel, used, chosen, sim, tt.lambda) {
-			used[p] = true
+		for p := m.next(); p >= 0; p = m.next() {
+			m.take(p)
 			chosen = append(chosen, p)
 		}
 		if !slices.Equal(chosen, tt.want) {
@@ -276,7 +276,7 @@ func TestContext(t *testing.T) {
 	}
 	var want, got []string
 	for _, h := range hits {
-		if c := cite(h.Path, h.Anchor); !slices.Contains(want, c) {
+		if c := h.Ref(); !slices.Contains(want, c) {
 			want = append(want, c)
 		}
 	}

@@ -37,10 +37,10 @@ func ParseLevel(s string) (Level, error) {
 // file names it: path#anchor at section level (just path when p has no
 // anchor), path at page level.
 func DocID(p *build.Passage, level Level) string {
-	if level == LevelPage || p.Anchor == "" {
+	if level == LevelPage {
 		return p.Path
 	}
-	return p.Path + "#" + p.Anchor
+	return p.Ref()
 }
 
 // DefaultEvalDepth is how many passages EvalOptions fetches per question

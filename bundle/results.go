@@ -15,6 +15,7 @@ import (
 	"time"
 
 	"github.com/kbc-project/kbc/build"
+	"github.com/kbc-project/kbc/build/dedupe"
 	"github.com/kbc-project/kbc/build/fresh"
 )
 
@@ -79,7 +80,7 @@ func (b *Bundle) Query(query string, opts SearchOptions) ([]Hit, error) {
 	if err != nil {
 		return nil, err
 	}
-	dueSoon := b.dueSoon()
+	dueSoon := b.settings().DueSoon
 	// Fetch more than k: filtered passages leave gaps, and a tie at the
 	// k-th score must be seen whole to put its canonical copy first.
 	for fetch := max(2*k, k+10); ; fetch *= 4 {
@@ -136,15 +137,40 @@ func canonicalRank(h *Hit) int {
 	return 1
 }
 
-// dueSoon returns the due-soon window the bundle was built with.
-func (b *Bundle) dueSoon() fresh.Duration {
-	var s struct {
-		Freshness fresh.Policy `json:"freshness"`
-	}
-	if len(b.manifest.Settings) > 0 && json.Unmarshal(b.manifest.Settings, &s) == nil && s.Freshness.DueSoon.Days > 0 {
-		return s.Freshness.DueSoon
-	}
-	return fresh.DefaultPolicy().DueSoon
+// servingSettings are the build settings that Query and Context take from
+// the manifest, with the defaults of a build where it names none.
+type servingSettings struct {
+	DueSoon   fresh.Duration // the due-soon window of the freshness policy
+	AimTokens int            // the passage size aimed at
+	Shingle   int            // words per shingle of the duplicate search
+	Tokenizer string         // the BPE encoding tokens are counted in
+}
+
+// settings reads the serving settings from the manifest once.
+func (b *Bundle) settings() servingSettings {
+	b.settingsOnce.Do(func() {
+		var s struct {
+			build.Settings
+			Freshness  fresh.Policy `json:"freshness"`
+			Duplicates struct {
+				Shingle int `json:"Shingle"`
+			} `json:"duplicates"`
+		}
+		if len(b.manifest.Settings) > 0 {
+			_ = json.Unmarshal(b.manifest.Settings, &s) // what does not parse takes the defaults
+		}
+		due := s.Freshness.DueSoon
+		if due.Days <= 0 {
+			due = fresh.DefaultPolicy().DueSoon
+		}
+		b.serving = servingSettings{
+			DueSoon:   due,
+			AimTokens: cmp.Or(s.AimTokens, build.DefaultSettings().AimTokens),
+			Shingle:   cmp.Or(s.Duplicates.Shingle, dedupe.DefaultOptions().Shingle),
+			Tokenizer: cmp.Or(s.Tokenizer, build.DefaultSettings().Tokenizer),
+		}
+	})
+	return b.serving
 }
 
 // conflictSet is what Query adds to hits from the duplicate report.

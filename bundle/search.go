@@ -40,6 +40,10 @@ type Bundle struct {
 	canonical     map[string]bool // ids of the canonical sides of divergent pairs
 	conflictErr   error
 
+	// The manifest's settings that Query and Context use, read once.
+	settingsOnce sync.Once
+	serving      servingSettings
+
 	// The tokenizer Context counts with, made on first use.
 	tokOnce sync.Once
 	tok     *build.Tokenizer

@@ -49,10 +49,7 @@ func (r *record) loc() string {
 	if r.p == nil {
 		return "passage " + r.id
 	}
-	if r.p.Anchor == "" {
-		return r.p.Path
-	}
-	return r.p.Path + "#" + r.p.Anchor
+	return r.p.Ref()
 }
 
 // source is the bundle a sync brings the database to.

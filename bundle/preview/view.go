@@ -123,16 +123,13 @@ func newHitView(rank int, score float64, p *build.Passage, now time.Time, dueSoo
 		Score:       fmt.Sprintf("%.3f", score),
 		Title:       p.Title,
 		Trail:       p.Heading,
-		Ref:         p.Path,
+		Ref:         p.Ref(),
 		Line:        p.Line,
 		EndLine:     p.EndLine,
 		Status:      st,
 		StatusLabel: statusLabels[st],
 		Owner:       p.Owner,
 		AlsoAt:      p.AlsoAt,
-	}
-	if p.Anchor != "" {
-		hv.Ref += "#" + p.Anchor
 	}
 	if !p.ReviewBy.IsZero() {
 		hv.ReviewBy = p.ReviewBy.UTC().Format(time.DateOnly)

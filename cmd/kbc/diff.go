@@ -58,11 +58,7 @@ func runDiff(args []string, stdout, stderr io.Writer) int {
 	}
 	a, b := where(prior[0].Passages), where(prior[1].Passages)
 	show := func(mark string, p build.Passage) {
-		loc := p.Path
-		if p.Anchor != "" {
-			loc += "#" + p.Anchor
-		}
-		fmt.Fprintf(stdout, "%s %s  %s:%d-%d\n", mark, p.ID, printable.Quote(loc), p.Line, p.EndLine)
+		fmt.Fprintf(stdout, "%s %s  %s:%d-%d\n", mark, p.ID, printable.Quote(p.Ref()), p.Line, p.EndLine)
 	}
 	for _, id := range d.Added {
 		show("+", b[id])

@@ -95,11 +95,7 @@ func runQuery(args []string, stdout, stderr io.Writer) int {
 		return exitOK
 	}
 	for i, h := range hits {
-		loc := h.Path
-		if h.Anchor != "" {
-			loc += "#" + h.Anchor
-		}
-		fmt.Fprintf(stdout, "%2d. %6.3f  %s  (lines %d-%d)  %s\n", i+1, h.Score, printable.Quote(loc), h.Line, h.EndLine, h.Status)
+		fmt.Fprintf(stdout, "%2d. %6.3f  %s  (lines %d-%d)  %s\n", i+1, h.Score, printable.Quote(h.Ref()), h.Line, h.EndLine, h.Status)
 		if len(h.Heading) > 0 {
 			fmt.Fprintf(stdout, "    %s\n", printable.Quote(strings.Join(h.Heading, " > ")))
 		}

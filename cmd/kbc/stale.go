@@ -83,16 +83,16 @@ func runStale(args []string, stdout, stderr io.Writer) int {
 }
 
 // readReports reads a bundle's staleness report and counts its divergent
-// copies and the credentials its build found.
+// copies and the credentials its build found (-1 when it has no secrets report).
 func readReports(dir string) (*build.StalenessReport, int, int, error) {
 	var st build.StalenessReport
 	var dup build.DuplicateReport
 	var sec build.SecretsReport
-	secrets := sec.Total
+	noSecrets := false // a bundle from before the secrets report
 	for name, v := range map[string]any{bundle.StalenessJSON: &st, bundle.DuplicatesJSON: &dup, bundle.SecretsJSON: &sec} {
 		data, err := os.ReadFile(filepath.Join(dir, filepath.FromSlash(name)))
 		if name == bundle.SecretsJSON && errors.Is(err, fs.ErrNotExist) {
-			secrets = -1 // a bundle from before the secrets report
+			noSecrets = true
 			continue
 		}
 		if err != nil {
@@ -102,8 +102,8 @@ func readReports(dir string) (*build.StalenessReport, int, int, error) {
 			return nil, 0, 0, fmt.Errorf("%s: %v", filepath.Join(dir, name), err)
 		}
 	}
-	if secrets >= 0 {
-		secrets = sec.Total
+	if noSecrets {
+		return &st, len(dup.Divergent), -1, nil
 	}
-	return &st, len(dup.Divergent), secrets, nil
+	return &st, len(dup.Divergent), sec.Total, nil
 }
