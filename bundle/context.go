@@ -293,13 +293,9 @@ func warnings(h *Hit) []string {
 		w = append(w, "date unknown: freshness cannot be judged")
 	}
 	for _, c := range h.Conflict {
-		var parts []string
-		for _, d := range c.Differences {
-			parts = append(parts, fmt.Sprintf("%q there, %q here", d.There, d.Here))
-		}
 		msg := "disputed: " + c.With + " differs"
-		if len(parts) > 0 {
-			msg += " (" + strings.Join(parts, "; ") + ")"
+		if len(c.Differences) > 0 {
+			msg += " (" + c.Words() + ")"
 		}
 		w = append(w, msg)
 	}

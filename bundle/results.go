@@ -44,6 +44,16 @@ type Conflict struct {
 	Differences []Difference `json:"differences"`
 }
 
+// Words says what differs, one run per item: "90 days" there, "30 days"
+// here.
+func (c Conflict) Words() string {
+	parts := make([]string, len(c.Differences))
+	for i, d := range c.Differences {
+		parts[i] = fmt.Sprintf("%q there, %q here", d.There, d.Here)
+	}
+	return strings.Join(parts, "; ")
+}
+
 // Difference is one run of differing words: Here in this passage, There in
 // the other copy.
 type Difference struct {

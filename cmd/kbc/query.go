@@ -110,11 +110,7 @@ func runQuery(args []string, stdout, stderr io.Writer) int {
 			fmt.Fprintf(stdout, "    also at: %s\n", strings.Join(also, ", "))
 		}
 		for _, c := range h.Conflict {
-			var parts []string
-			for _, d := range c.Differences {
-				parts = append(parts, fmt.Sprintf("%q there, %q here", d.There, d.Here))
-			}
-			fmt.Fprintf(stdout, "    disputed by %s: %s\n", c.With, strings.Join(parts, "; "))
+			fmt.Fprintf(stdout, "    disputed by %s: %s\n", c.With, c.Words())
 		}
 	}
 	return exitOK
