@@ -14,6 +14,7 @@ require (
 	github.com/blevesearch/scorch_segment_api/v2 v2.4.11
 	github.com/blevesearch/zapx/v15 v15.4.3
 	github.com/cespare/xxhash/v2 v2.3.0
+	github.com/chromedp/chromedp v0.23.1
 	github.com/dlclark/regexp2/v2 v2.5.1
 	github.com/ekzhu/minhash-lsh v0.0.0-20171225071031-5c06ee8586a1
 	github.com/fsnotify/fsnotify v1.10.1
@@ -67,9 +68,11 @@ require (
 	github.com/blevesearch/zapx/v14 v14.4.3 // indirect
 	github.com/blevesearch/zapx/v16 v16.3.4 // indirect
 	github.com/blevesearch/zapx/v17 v17.2.5 // indirect
+	github.com/chromedp/cdproto v0.160.1 // indirect
 	github.com/dgryski/go-metro v0.0.0-20250106013310-edb8663e5e33 // indirect
 	github.com/dgryski/go-minhash v0.0.0-20170608043002-7fe510aff544 // indirect
 	github.com/dgryski/go-spooky v0.0.0-20170606183049-ed3d087f40e2 // indirect
+	github.com/go-json-experiment/json v0.0.0-20260213210345-44df1a37e875 // indirect
 	github.com/go-logr/logr v1.4.4 // indirect
 	github.com/go-logr/stdr v1.2.2 // indirect
 	github.com/golang/snappy v1.0.0 // indirect
