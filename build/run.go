@@ -155,9 +155,6 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 				return err
 			}
 			docs[i], keys[i], blocks[i], reused[i], fails[i] = readDocument(fsys, f, opts.Walk.MaxSize, opts.Cache)
-			if !reused[i] && fails[i] == nil {
-				tok.Preload() // this page will be split
-			}
 			if opts.Progress != nil {
 				opts.Progress(int(done.Add(1)), len(files))
 			}

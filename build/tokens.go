@@ -4,12 +4,12 @@ import (
 	"fmt"
 	"hash/maphash"
 	"strings"
-	"sync"
+
 	"sync/atomic"
 	"unicode"
 	"unicode/utf8"
 
-	"github.com/tiktoken-go/tokenizer"
+	"github.com/kbc-project/kbc/build/bpe"
 )
 
 // Tokenizer counts BPE tokens the way an embedding model will see them, so
@@ -17,28 +17,28 @@ import (
 // by several goroutines; each Tokenizer owns its cache, nothing is shared
 // between them.
 //
-// Counting with the tokenizer library alone runs its regular expression
-// engine over every byte (about 9 MB/s here). Count instead cuts the text
-// into the same pre-tokenisation pieces as the cl100k_base pattern with a
-// hand-written scanner and asks the library only for pieces it has not seen,
-// caching their counts. BPE never merges across pieces, so the sum of the
-// piece counts is the count of the whole text; TestTokenCountCorpora and
-// FuzzTokenCount check that the result equals the library's own count.
+// Counting with a tokenizer library alone runs its regular expression
+// engine over every byte (about 9 MB/s here) and first loads its
+// vocabulary into a map (35 to 47 ms). Count instead cuts the text into
+// the same pre-tokenisation pieces as the cl100k_base pattern with a
+// hand-written scanner and counts only pieces it has not seen, caching
+// their counts, by byte-pair merges over the rank table compiled into
+// package bpe, which needs no loading. BPE never merges across pieces, so
+// the sum of the piece counts is the count of the whole text;
+// TestTokenCountCorpora and FuzzTokenCount check that the result equals
+// the count of the reference library, github.com/tiktoken-go/tokenizer.
 //
-// The library (github.com/tiktoken-go/tokenizer v0.10.0) matches OpenAI's
-// tiktoken except in two rare cases, and Count follows the library: a run
+// That library (v0.10.0) matches OpenAI's tiktoken except in two rare
+// cases, and Count follows the library: a run
 // of white space with spaces between newlines ("\n  \n", as in code with
 // indented blank lines), one piece for tiktoken, is cut at its first
 // newline (in tiktoken's own test, "today\n \n" counts 3 instead of 2), and
 // DEL (U+007F) counts no token. Normalised prose holds neither; in code
 // they change a count by a token here and there.
 type Tokenizer struct {
-	name string
-	// codec loads the library's vocabulary on first use: a rebuild that
-	// takes every passage from the cache never needs it.
-	codec   func() (tokenizer.Codec, error)
-	preload sync.Once
-	cache   pieceCache
+	name  string
+	ranks *bpe.Ranks
+	cache pieceCache
 }
 
 // NewTokenizer returns the tokenizer called name. Only "cl100k_base" (the
@@ -46,19 +46,15 @@ type Tokenizer struct {
 // is known; its vocabulary is compiled into the program, nothing is
 // downloaded.
 func NewTokenizer(name string) (*Tokenizer, error) {
-	if name != string(tokenizer.Cl100kBase) {
-		return nil, fmt.Errorf("tokenizer %q not supported (known: %s)", name, tokenizer.Cl100kBase)
+	if name != cl100kBase {
+		return nil, fmt.Errorf("tokenizer %q not supported (known: %s)", name, cl100kBase)
 	}
-	t := &Tokenizer{name: name, codec: sync.OnceValues(func() (tokenizer.Codec, error) {
-		return tokenizer.Get(tokenizer.Cl100kBase)
-	})}
+	t := &Tokenizer{name: name, ranks: bpe.Cl100kBase()}
 	t.cache.init()
 	return t, nil
 }
 
-// Preload starts loading the vocabulary in the background, for a caller
-// that knows it will count tokens soon; Count waits for it.
-func (t *Tokenizer) Preload() { t.preload.Do(func() { go t.codec() }) }
+const cl100kBase = "cl100k_base"
 
 // Name returns the encoding name the tokenizer was made with.
 func (t *Tokenizer) Name() string { return t.name }
@@ -66,7 +62,13 @@ func (t *Tokenizer) Name() string { return t.name }
 // Count returns the number of tokens in s. Special tokens such as
 // "<|endoftext|>" get no special treatment: they count as the ordinary text
 // they are.
+//
+// Text that is not valid UTF-8 is counted as the reference library counts
+// it: with each byte that is not part of a valid sequence read as U+FFFD
+// (its pattern matcher works on runes). Passages are valid UTF-8 (the
+// normaliser makes them so); this keeps the two counts equal on any input.
 func (t *Tokenizer) Count(s string) int {
+	s = asRunes(s)
 	n := 0
 	for i := 0; i < len(s); {
 		j, skip := nextPiece(s, i)
@@ -97,6 +99,7 @@ type measured struct {
 // count(last) for the last piece of a, exactly; FuzzSplit checks it on
 // every passage.
 func (t *Tokenizer) measure(s string) measured {
+	s = asRunes(s)
 	n, last, lastEnd := 0, 0, 0
 	for i := 0; i < len(s); {
 		j, skip := nextPiece(s, i)
@@ -115,6 +118,15 @@ func (t *Tokenizer) measure(s string) measured {
 	return measured{s, n, t.Count(p+"\n\n") - t.countPiece(p)}
 }
 
+// asRunes returns s with each byte of an invalid UTF-8 sequence replaced
+// by U+FFFD, as a conversion to []rune does; valid text is returned as is.
+func asRunes(s string) string {
+	if utf8.ValidString(s) {
+		return s
+	}
+	return string([]rune(s))
+}
+
 // countPiece returns the tokens of one pre-tokenisation piece.
 func (t *Tokenizer) countPiece(p string) int {
 	if len(p) == 1 {
@@ -125,7 +137,7 @@ func (t *Tokenizer) countPiece(p string) int {
 		return t.countShort(p)
 	}
 	if len(p) > maxCachedPiece {
-		return t.libraryCount(p)
+		return t.ranks.Count(p)
 	}
 	h := maphash.String(t.cache.seed, p)
 	bucket := t.cache.slots[h&(cacheSlots-1)&^(cacheWays-1):][:cacheWays]
@@ -134,7 +146,7 @@ func (t *Tokenizer) countPiece(p string) int {
 			return int(e.n)
 		}
 	}
-	n := t.libraryCount(p)
+	n := t.ranks.Count(p)
 	e := &cachedPiece{text: strings.Clone(p), n: int32(n)}
 	for i := range bucket {
 		if bucket[i].Load() == nil {
@@ -163,7 +175,7 @@ func (t *Tokenizer) countShort(p string) int {
 			return int(e >> countShift)
 		}
 	}
-	n := t.libraryCount(p)
+	n := t.ranks.Count(p)
 	// A piece has at most one token per byte, so n fits in 3 bits.
 	e := key | uint64(n)<<countShift
 	for i := range bucket {
@@ -173,25 +185,6 @@ func (t *Tokenizer) countShort(p string) int {
 		}
 	}
 	bucket[h%cacheWays].Store(e)
-	return n
-}
-
-// libraryCount asks the tokenizer library. A piece cut by nextPiece is
-// split by the library into that same single piece, so this is the BPE
-// count of p.
-func (t *Tokenizer) libraryCount(p string) int {
-	c, err := t.codec()
-	if err != nil {
-		// The vocabulary is compiled in; it fails to load only if the
-		// library is broken, which its own tests would show.
-		panic(fmt.Sprintf("tokenizer %s: %v", t.name, err))
-	}
-	n, err := c.Count(p)
-	if err != nil {
-		// The codec fails only on a regexp timeout, and none is set; count
-		// bytes, an upper bound, rather than pretend the text is empty.
-		return len(p)
-	}
 	return n
 }
 

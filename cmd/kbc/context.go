@@ -6,7 +6,6 @@ import (
 	"io"
 	"strings"
 
-	"github.com/kbc-project/kbc/build"
 	"github.com/kbc-project/kbc/bundle"
 )
 
@@ -37,21 +36,13 @@ func runContext(args []string, stdout, stderr io.Writer) int {
 	if *lambda <= 0 || *lambda > 1 {
 		return badUsage(fs, stderr, "--lambda %g is not in (0, 1]", *lambda)
 	}
-	// Load the vocabulary while the bundle opens: it is most of the
-	// work of one context.
-	tok, err := build.NewTokenizer(build.DefaultSettings().Tokenizer)
-	if err != nil {
-		fmt.Fprintf(stderr, "kbc context: %v\n", err)
-		return exitFailure
-	}
-	tok.Preload()
 	b, now, code := openForSearch(fs, pos[0], stderr)
 	if code >= 0 {
 		return code
 	}
 	defer b.Close()
 	c, err := b.Context(strings.Join(pos[1:], " "), bundle.ContextOptions{
-		SearchOptions: sf.options(0, now), Budget: *budget, Lambda: *lambda, Fetch: *fetch, Tokenizer: tok,
+		SearchOptions: sf.options(0, now), Budget: *budget, Lambda: *lambda, Fetch: *fetch,
 	})
 	if err != nil {
 		fmt.Fprintf(stderr, "kbc context: %v\n", err)
