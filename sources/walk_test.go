@@ -1,10 +1,13 @@
 package sources
 
 import (
+	"io/fs"
 	"os"
 	"path/filepath"
 	"reflect"
+	"slices"
 	"strings"
+	"syscall"
 	"testing"
 	"testing/fstest"
 	"time"
@@ -140,20 +143,53 @@ func TestWalkSymlinks(t *testing.T) {
 	}
 }
 
+// A file the folder lists but will not open, and one that opens but
+// fails part-way through reading, are each one error naming the file.
+// The failing file system stands in for permission bits, which root (as
+// CI runs) reads past.
 func TestReadFileUnreadable(t *testing.T) {
-	if os.Geteuid() == 0 {
-		t.Skip("running as root: file permissions do not stop reads")
+	fsys := failingFS{MapFS: fstest.MapFS{
+		"locked.md": {Data: []byte("# x")},
+		"torn.md":   {Data: []byte("# y")},
+	}}
+	files, errs := Walk(fsys, WalkOptions{})
+	if len(errs) > 0 || len(files) != 2 {
+		t.Fatalf("walk: %v %v", files, errs)
 	}
-	root := t.TempDir()
-	p := filepath.Join(root, "locked.md")
-	if err := os.WriteFile(p, []byte("# x"), 0o000); err != nil {
-		t.Fatal(err)
+	for _, tt := range []struct{ file, want string }{
+		{"locked.md", "locked.md: cannot read: permission denied"},
+		{"torn.md", "torn.md: cannot read: input/output error"},
+	} {
+		i := slices.IndexFunc(files, func(f File) bool { return f.Path == tt.file })
+		_, err := ReadFile(fsys, files[i], 0)
+		if err == nil || err.Error() != tt.want {
+			t.Errorf("%s: err = %v, want %q", tt.file, err, tt.want)
+		}
 	}
-	files, _ := Walk(os.DirFS(root), WalkOptions{})
-	_, err := ReadFile(os.DirFS(root), files[0], 0)
-	if err == nil || err.Error() != "locked.md: cannot read: permission denied" {
-		t.Fatalf("err = %v", err)
+}
+
+// failingFS refuses to open locked.md (permission denied) and fails
+// reads of torn.md (an I/O error), as a disk or a mode of 000 would.
+type failingFS struct{ fstest.MapFS }
+
+func (f failingFS) Open(name string) (fs.File, error) {
+	switch name {
+	case "locked.md":
+		return nil, &fs.PathError{Op: "open", Path: name, Err: syscall.EACCES}
+	case "torn.md":
+		fh, err := f.MapFS.Open(name)
+		if err != nil {
+			return nil, err
+		}
+		return tornFile{fh}, nil
 	}
+	return f.MapFS.Open(name)
+}
+
+type tornFile struct{ fs.File }
+
+func (tornFile) Read([]byte) (int, error) {
+	return 0, &fs.PathError{Op: "read", Path: "torn.md", Err: syscall.EIO}
 }
 
 func TestLooksLikeMDX(t *testing.T) {

@@ -4,6 +4,7 @@ import (
 	"errors"
 	"flag"
 	"fmt"
+	"github.com/kbc-project/kbc/internal/asuser"
 	"os"
 	"os/exec"
 	"strconv"
@@ -19,6 +20,17 @@ func TestMain(m *testing.M) {
 	testscript.Main(m, map[string]func(){
 		"kbc": func() { os.Exit(run(os.Args[1:], os.Stdout, os.Stderr)) },
 	})
+}
+
+// TestScriptsAsUser runs, as the user nobody, the scripts that test file
+// permissions, which TestScripts skips as root (root reads past them).
+func TestScriptsAsUser(t *testing.T) {
+	if !asuser.Root() {
+		t.Skip("not root: TestScripts runs these scripts")
+	}
+	for _, name := range []string{"unreadable"} {
+		asuser.Run(t, "^TestScripts$/^"+name+"$", []string{"../../testdata/script/" + name + ".txtar"})
+	}
 }
 
 // TestScripts runs the command-line scripts in testdata/script: each one
