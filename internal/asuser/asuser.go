@@ -142,4 +142,3 @@ func copyFile(from, to string, perm os.FileMode) error {
 	}
 	return os.Chmod(to, perm) // not narrowed by the umask
 }
-
