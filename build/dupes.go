@@ -134,7 +134,7 @@ func conflicts(diffs []dedupe.Difference) []dedupe.Difference {
 	return out
 }
 
-func hasDigit(s string) bool { return strings.IndexAny(s, "0123456789") >= 0 }
+func hasDigit(s string) bool { return strings.ContainsAny(s, "0123456789") }
 
 // dedupePassages finds copies among ps (sorted by path and line), keeps
 // one canonical passage per cluster with the others' locations in its

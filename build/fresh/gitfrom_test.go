@@ -164,6 +164,9 @@ func TestGitDatesFrom(t *testing.T) {
 	// Unmoved HEAD: one git process, no log.
 	before := runs()
 	got, _, err := GitDatesFrom(ctx, docs, past[len(past)-1])
+	if err != nil {
+		t.Fatal(err)
+	}
 	want, _ := GitDates(ctx, docs)
 	if d := diffDates(got, want); d != "" || runs()-before != 2 { // rev-parse, and the GitDates just above
 		t.Errorf("unmoved HEAD: %d git processes; dates differ:\n%s", runs()-before-1, d)
