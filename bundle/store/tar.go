@@ -78,7 +78,8 @@ func writeTar(w io.Writer, root, sub string) error {
 // readTar unpacks a stream made by writeTar into root. Every name must be a
 // valid slash path under sub ("index/..."), each entry a folder or a regular
 // file, each file new: anything else (a link, "..", an absolute path) is an
-// error, so a crafted layer cannot write outside root.
+// error, so a crafted layer cannot write outside root; a sparse file is
+// refused too, so that no file holds more bytes than the layer brought.
 func readTar(r io.Reader, root, sub string) error {
 	tr := tar.NewReader(r)
 	for {
@@ -92,6 +93,13 @@ func readTar(r io.Reader, root, sub string) error {
 		name := strings.TrimSuffix(hdr.Name, "/")
 		if !fs.ValidPath(name) || strings.Contains(name, `\`) || (name != sub && !strings.HasPrefix(name, sub+"/")) {
 			return fmt.Errorf("tar entry %q lies outside %s/", hdr.Name, sub)
+		}
+		for k := range hdr.PAXRecords {
+			if strings.HasPrefix(k, "GNU.sparse.") {
+				// archive/tar would expand a few bytes into a file of
+				// any size (holes read as zeros); writeTar never makes one.
+				return fmt.Errorf("tar entry %q is a sparse file", hdr.Name)
+			}
 		}
 		p := filepath.Join(root, filepath.FromSlash(name))
 		switch hdr.Typeflag {
