@@ -8,10 +8,12 @@
 // common in documentation pages itself: void elements, implied </p>,
 // </li>, </dt>, </dd>, </tr>, </td>, </th>, </option>, headings that close
 // an open heading, end tags that match no open element, inline end tags
-// that would cross a block, an implied end of <head>. The fix-ups it skips
-// on purpose (implied html, head, body and tbody elements, re-opened
-// formatting elements, foster parenting, content after </body>) are listed
-// in the test that compares its trees with html.Parse's on real pages.
+// that would cross a block, an implied end of <head>. It skips on purpose
+// the fix-ups that add elements the source does not have (implied html,
+// head, body, tbody and colgroup, an empty p for a stray </p>, re-opened
+// formatting elements) and foster parenting, and it closes a self-closing
+// tag whatever the element. TestAgainstParse compares its trees with
+// html.Parse's on real pages and lists these differences.
 //
 // The tree is a flat slice in document order: a node's descendants follow
 // it, up to Node.Sub. The caller sees each start tag through an
@@ -71,7 +73,7 @@ func (t *Tree) Text(n *Node) []byte {
 	return t.Src[n.T0:n.T1]
 }
 
-// Name returns the lower-case tag name of element i.
+// Name returns the lower-case tag name of element i (not a text node).
 func (t *Tree) Name(i int) string {
 	n := &t.Nodes[i]
 	if n.Tag != 0 {
