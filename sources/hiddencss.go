@@ -8,6 +8,8 @@ import (
 	"github.com/yuin/goldmark/ast"
 	"golang.org/x/net/html"
 	"golang.org/x/net/html/atom"
+
+	"github.com/kbc-project/kbc/sources/internal/htmltree"
 )
 
 // Reasons an inline style hides an element's text from readers, as
@@ -233,7 +235,7 @@ func htmlTagHides(raw []byte) (name, reason string, hidden bool) {
 }
 
 // htmlVoidName reports whether the element name is a void element.
-func htmlVoidName(name string) bool { return htmlVoid(atom.Lookup([]byte(name))) }
+func htmlVoidName(name string) bool { return htmltree.Void(atom.Lookup([]byte(name))) }
 
 // rawTagName returns the name of the tag raw begins with, lower-cased,
 // and whether it is an end tag; "" when raw is no tag.
