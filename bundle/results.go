@@ -2,6 +2,7 @@ package bundle
 
 import (
 	"bufio"
+	"bytes"
 	"cmp"
 	"encoding/json"
 	"errors"
@@ -86,15 +87,15 @@ func (b *Bundle) Query(query string, opts SearchOptions) ([]Hit, error) {
 	if now.IsZero() {
 		now = time.Now()
 	}
-	conflicts, err := b.conflicts()
-	if err != nil {
-		return nil, err
-	}
 	dueSoon := b.settings().DueSoon
 	// Fetch more than k: filtered passages leave gaps, and a tie at the
 	// k-th score must be seen whole to put its canonical copy first.
 	for fetch := max(2*k, k+10); ; fetch *= 4 {
 		hits, err := b.Search(query, fetch)
+		if err != nil {
+			return nil, err
+		}
+		conflicts, canonical, err := b.conflicts(hits)
 		if err != nil {
 			return nil, err
 		}
@@ -107,7 +108,7 @@ func (b *Bundle) Query(query string, opts SearchOptions) ([]Hit, error) {
 				continue
 			}
 			h.Conflict = conflicts[h.ID]
-			h.canonical = b.canonical[h.ID]
+			h.canonical = canonical[h.ID]
 			kept = append(kept, h)
 		}
 		exhausted := len(hits) < fetch
@@ -186,37 +187,56 @@ func (b *Bundle) settings() servingSettings {
 // conflictSet is what Query adds to hits from the duplicate report.
 type conflictSet map[string][]Conflict
 
-// conflicts reads the divergent copies of reports/duplicates.json once
-// and indexes them by passage id; a bundle without the report has none.
-func (b *Bundle) conflicts() (conflictSet, error) {
-	b.conflictsOnce.Do(func() {
-		b.conflictMap, b.canonical, b.conflictErr = readConflicts(b.dir)
+// conflicts returns what Query adds to hits from the divergent copies of
+// reports/duplicates.json: the conflicts of each passage in a pair, and
+// the pairs' canonical sides. The list is read once, and decoded (once)
+// only when one of hits' ids is in it: most questions hit no divergent
+// copy, and decoding the list is most of the work of a short query on a
+// large bundle. A bundle without the report has none.
+func (b *Bundle) conflicts(hits []Hit) (conflictSet, map[string]bool, error) {
+	b.conflictsOnce.Do(func() { b.divergentRaw, b.conflictErr = readDivergentRaw(b.dir) })
+	if b.conflictErr != nil {
+		return nil, nil, b.conflictErr
+	}
+	if !slices.ContainsFunc(hits, func(h Hit) bool { return bytes.Contains(b.divergentRaw, []byte(`"`+h.ID+`"`)) }) {
+		return nil, nil, nil
+	}
+	b.decodeOnce.Do(func() {
+		var d []build.DivergentCopy
+		if err := json.Unmarshal(b.divergentRaw, &d); err != nil {
+			b.decodeErr = fmt.Errorf("%s: %w", filepath.Join(b.dir, filepath.FromSlash(DuplicatesJSON)), err)
+			return
+		}
+		b.conflictMap, b.canonical = indexConflicts(d)
 	})
-	return b.conflictMap, b.conflictErr
+	return b.conflictMap, b.canonical, b.decodeErr
 }
 
-// readConflicts reads the divergent pairs of the duplicate report in dir:
-// each passage of a pair gets a Conflict naming the other side, and the
-// canonical side is marked.
-func readConflicts(dir string) (conflictSet, map[string]bool, error) {
+// readDivergentRaw returns the undecoded "divergent" list of the
+// duplicate report in dir, or nil when there is no report.
+func readDivergentRaw(dir string) (json.RawMessage, error) {
 	name := filepath.Join(dir, filepath.FromSlash(DuplicatesJSON))
 	f, err := os.Open(name)
 	if errors.Is(err, fs.ErrNotExist) {
-		return nil, nil, nil
+		return nil, nil
 	}
 	if err != nil {
-		return nil, nil, err
+		return nil, err
 	}
 	defer f.Close()
-	var rep struct {
-		Divergent []build.DivergentCopy `json:"divergent"`
+	raw, err := readDivergent(f)
+	if err != nil {
+		return nil, fmt.Errorf("%s: %w", name, err)
 	}
-	if rep.Divergent, err = readDivergent(f); err != nil {
-		return nil, nil, fmt.Errorf("%s: %w", name, err)
-	}
+	return raw, nil
+}
+
+// indexConflicts gives each passage of a divergent pair a Conflict naming
+// the other side, and marks the canonical sides.
+func indexConflicts(divergent []build.DivergentCopy) (conflictSet, map[string]bool) {
 	set := conflictSet{}
 	canonical := map[string]bool{}
-	for _, d := range rep.Divergent {
+	for _, d := range divergent {
 		var here, there []Difference
 		for _, x := range d.Differences {
 			if x.Fact {
@@ -228,13 +248,13 @@ func readConflicts(dir string) (conflictSet, map[string]bool, error) {
 		set[d.Copy.ID] = append(set[d.Copy.ID], Conflict{With: d.Canonical.Ref(), Differences: there})
 		canonical[d.Canonical.ID] = true
 	}
-	return set, canonical, nil
+	return set, canonical
 }
 
-// readDivergent decodes the "divergent" list of a duplicate report and
-// stops there: the report writes it before the clusters, which on a large
-// bundle are megabytes that a query does not need.
-func readDivergent(r io.Reader) ([]build.DivergentCopy, error) {
+// readDivergent returns the "divergent" list of a duplicate report,
+// undecoded, and stops there: the report writes it before the clusters,
+// which on a large bundle are megabytes that a query does not need.
+func readDivergent(r io.Reader) (json.RawMessage, error) {
 	dec := json.NewDecoder(bufio.NewReader(r))
 	if t, err := dec.Token(); err != nil || t != json.Delim('{') {
 		return nil, fmt.Errorf("not a duplicate report (%v)", err)
@@ -244,14 +264,12 @@ func readDivergent(r io.Reader) ([]build.DivergentCopy, error) {
 		if err != nil {
 			return nil, err
 		}
-		if t == "divergent" {
-			var d []build.DivergentCopy
-			err := dec.Decode(&d)
-			return d, err
-		}
-		var skip json.RawMessage
-		if err := dec.Decode(&skip); err != nil {
+		var raw json.RawMessage
+		if err := dec.Decode(&raw); err != nil {
 			return nil, err
+		}
+		if t == "divergent" {
+			return raw, nil
 		}
 	}
 	return nil, nil
