@@ -633,24 +633,6 @@ func orNone(s string) string {
 	return s
 }
 
-func (s *blobStore) pointers(ctx context.Context) ([]Pointer, error) {
-	names, err := s.listDirs(ctx, s.prefix+"pointers/")
-	if err != nil {
-		return nil, err
-	}
-	var out []Pointer
-	for _, name := range names {
-		if checkPointerName(name) != nil {
-			continue
-		}
-		p, _, err := s.pointer(ctx, name)
-		if errors.Is(err, ErrNotFound) {
-			continue
-		}
-		if err != nil {
-			return nil, err
-		}
-		out = append(out, p)
-	}
-	return out, nil
+func (s *blobStore) pointerNames(ctx context.Context) ([]string, error) {
+	return s.listDirs(ctx, s.prefix+"pointers/")
 }

@@ -503,24 +503,10 @@ func (s *ociStore) setPointer(ctx context.Context, p Pointer, rev string) (Point
 	return p, nil
 }
 
-func (s *ociStore) pointers(ctx context.Context) ([]Pointer, error) {
+func (s *ociStore) pointerNames(ctx context.Context) ([]string, error) {
 	tags, err := s.tags(ctx)
 	if err != nil {
 		return nil, err
 	}
-	var out []Pointer
-	for _, tag := range tags {
-		if strings.HasPrefix(tag, versionTagPrefix) {
-			continue
-		}
-		p, _, err := s.pointer(ctx, tag)
-		if errors.Is(err, ErrNotFound) {
-			continue
-		}
-		if err != nil {
-			return nil, err
-		}
-		out = append(out, p)
-	}
-	return out, nil
+	return slices.DeleteFunc(tags, func(tag string) bool { return strings.HasPrefix(tag, versionTagPrefix) }), nil
 }

@@ -118,7 +118,9 @@ type backend interface {
 	deleteVersion(ctx context.Context, id string) error
 	pointer(ctx context.Context, name string) (Pointer, string, error)
 	setPointer(ctx context.Context, p Pointer, rev string) (Pointer, error)
-	pointers(ctx context.Context) ([]Pointer, error)
+	// pointerNames lists the names that may be pointers; Store.pointers
+	// reads each (a name that is not a valid pointer name is skipped).
+	pointerNames(ctx context.Context) ([]string, error)
 	close() error
 }
 
@@ -441,7 +443,7 @@ func (s *Store) versions(ctx context.Context) ([]Version, error) {
 	if err != nil {
 		return nil, err
 	}
-	ps, err := s.b.pointers(ctx)
+	ps, err := s.pointers(ctx)
 	if err != nil {
 		return nil, err
 	}
@@ -460,9 +462,33 @@ func (s *Store) versions(ctx context.Context) ([]Version, error) {
 	return vs, nil
 }
 
+// pointers reads every pointer of the store; a name whose pointer went
+// away since it was listed is skipped.
+func (s *Store) pointers(ctx context.Context) ([]Pointer, error) {
+	names, err := s.b.pointerNames(ctx)
+	if err != nil {
+		return nil, err
+	}
+	var out []Pointer
+	for _, name := range names {
+		if checkPointerName(name) != nil {
+			continue
+		}
+		p, _, err := s.b.pointer(ctx, name)
+		if errors.Is(err, ErrNotFound) {
+			continue
+		}
+		if err != nil {
+			return nil, err
+		}
+		out = append(out, p)
+	}
+	return out, nil
+}
+
 // Pointers lists the store's pointers, sorted by name.
 func (s *Store) Pointers(ctx context.Context) ([]Pointer, error) {
-	ps, err := s.b.pointers(ctx)
+	ps, err := s.pointers(ctx)
 	if err != nil {
 		return nil, s.red.wrap(err)
 	}
