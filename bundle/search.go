@@ -36,9 +36,6 @@ type Bundle struct {
 	// The divergent copies of reports/duplicates.json, read on first use
 	// by Query (see conflicts).
 	conflictsOnce sync.Once
-	divergentRaw  json.RawMessage // the duplicate report's divergent list
-	decodeOnce    sync.Once
-	decodeErr     error
 	conflictMap   conflictSet
 	canonical     map[string]bool // ids of the canonical sides of divergent pairs
 	conflictErr   error
