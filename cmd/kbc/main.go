@@ -42,6 +42,7 @@ const (
 )
 
 func main() {
+	tuneGC(os.Args[1:])
 	// KBC_CPUPROFILE=FILE writes a CPU profile of the run, for go tool
 	// pprof (see DEVELOPERS.md).
 	if p := os.Getenv("KBC_CPUPROFILE"); p != "" {
