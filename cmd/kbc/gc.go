@@ -17,11 +17,12 @@ const briefMemoryLimit = 512 << 20
 // tuneGC turns the garbage collector off for a brief command, up to a
 // memory limit past which it runs as usual. In such a process collecting
 // costs more than the memory it frees: on a 29,573-passage bundle a
-// query's median wall time fell from 82 to 73 ms (scripts/quiet-timing,
-// see DEVELOPERS.md). This is the "GOGC=off with a memory limit" setting
-// of the Go GC guide (go.dev/doc/gc-guide, "Memory limit"). A GOGC or
-// GOMEMLIMIT the user set wins. It is called from main only, never from
-// tests, which run every command in one long process.
+// query's median wall time fell from 82 to 73 ms (15 runs, each started
+// when the machine was idle; kbc-bench's query table measures the same).
+// This is the "GOGC=off with a memory limit" setting of the Go GC guide
+// (go.dev/doc/gc-guide, "Memory limit"). A GOGC or GOMEMLIMIT the user set
+// wins. Only main calls it, never the tests, which run every command in
+// one long process.
 func tuneGC(args []string) {
 	if len(args) == 0 || !briefCommands[args[0]] {
 		return
