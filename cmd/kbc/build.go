@@ -60,10 +60,10 @@ func addSourceFlags(fs *flag.FlagSet) *sourceFlags {
 	fs.IntVar(&sf.aim, "aim-tokens", def.Settings.AimTokens, "passage size to aim for, in tokens")
 	fs.IntVar(&sf.maxTok, "max-tokens", def.Settings.MaxTokens, "largest passage, in tokens")
 	fs.Float64Var(&sf.threshold, "dup-threshold", def.Dedupe.Threshold, "Jaccard similarity at which passages count as copies")
-	fs.StringVar(&sf.maxStale, "max-stale", "", "gate: exit 3 when more than N documents (or N% of them) are stale or expired")
-	fs.StringVar(&sf.maxUnknown, "max-unknown", "", "gate: exit 3 when more than N documents (or N% of them) have no usable date")
-	fs.BoolVar(&sf.failOnDivergent, "fail-on-divergent", false, "gate: exit 3 when copies of a passage differ in numbers, versions, dates or units")
-	fs.BoolVar(&sf.failOnSecrets, "fail-on-secrets", false, "gate: exit 3 when a credential was found in the sources (see reports/secrets.md)")
+	fs.StringVar(&sf.maxStale, "max-stale", "", "check: exit 3 when more than N documents (or N% of them) are stale or expired")
+	fs.StringVar(&sf.maxUnknown, "max-unknown", "", "check: exit 3 when more than N documents (or N% of them) have no usable date")
+	fs.BoolVar(&sf.failOnDivergent, "fail-on-divergent", false, "check: exit 3 when copies of a passage differ in numbers, versions, dates or units")
+	fs.BoolVar(&sf.failOnSecrets, "fail-on-secrets", false, "check: exit 3 when a credential was found in the sources (see reports/secrets.md)")
 	return sf
 }
 
@@ -80,17 +80,17 @@ func (sf *sourceFlags) skipOutput(src, out string) string {
 	return rel
 }
 
-// gates are the quality gates of one run.
-type gates struct {
+// checks are the checks of one run (--max-stale and the others).
+type checks struct {
 	stale, unknown     docLimit
 	divergent, secrets bool
 }
 
 // options builds the pipeline options for src: defaults, then the config
 // file at src's root, then the flags given on the command line.
-func (sf *sourceFlags) options(src string) (build.Options, gates, error) {
+func (sf *sourceFlags) options(src string) (build.Options, checks, error) {
 	opts := build.DefaultOptions()
-	var g gates
+	var g checks
 	set := map[string]bool{}
 	sf.fs.Visit(func(f *flag.Flag) { set[f.Name] = true })
 	dir, err := sources.OpenDir(src)
@@ -154,9 +154,9 @@ func (sf *sourceFlags) options(src string) (build.Options, gates, error) {
 	return opts, g, nil
 }
 
-// check runs the gates over a build's reports; it prints one line per
-// failed gate and returns exitGate, or exitOK.
-func (g gates) check(st *build.StalenessReport, divergent, secrets int, stderr io.Writer) int {
+// check runs the checks over a build's reports; it prints one line per
+// failed check and returns exitCheck, or exitOK.
+func (g checks) check(st *build.StalenessReport, divergent, secrets int, stderr io.Writer) int {
 	code := exitOK
 	for _, msg := range []string{
 		g.stale.check(st.Counts.StaleOrExpired(), st.Counts.Total),
@@ -166,7 +166,7 @@ func (g gates) check(st *build.StalenessReport, divergent, secrets int, stderr i
 	} {
 		if msg != "" {
 			fmt.Fprintf(stderr, "kbc: %s\n", msg)
-			code = exitGate
+			code = exitCheck
 		}
 	}
 	return code
@@ -177,12 +177,12 @@ func (g gates) check(st *build.StalenessReport, divergent, secrets int, stderr i
 // or -1 to go on.
 // With a session, compile uses and updates the build cache of its bundle
 // folder (saved by writeBundle or, in watch mode, when watching stops).
-func compile(ctx context.Context, fs *flag.FlagSet, sf *sourceFlags, src string, sess *session, now time.Time, stderr io.Writer) (*build.Result, build.Options, gates, int) {
+func compile(ctx context.Context, fs *flag.FlagSet, sf *sourceFlags, src string, sess *session, now time.Time, stderr io.Writer) (*build.Result, build.Options, checks, int) {
 	if st, err := os.Stat(src); err != nil || !st.IsDir() {
 		if err == nil {
 			err = errors.New("not a folder")
 		}
-		return nil, build.Options{}, gates{}, badUsage(fs, stderr, "source %s: %v", src, unwrapPathErr(err))
+		return nil, build.Options{}, checks{}, badUsage(fs, stderr, "source %s: %v", src, unwrapPathErr(err))
 	}
 	opts, g, err := sf.options(src)
 	if err != nil {
@@ -354,7 +354,7 @@ func runBuild(args []string, stdout, stderr io.Writer) int {
 			"and writes the bundle folder OUT: manifest.json, passages.jsonl, the search index\n"+
 			"and reports (staleness, duplicates, boilerplate). OUT is replaced only by a\n"+
 			"complete new bundle; a failed build leaves an earlier one untouched. Settings\n"+
-			"come from SRC/kbc.toml when present; flags override it. A failed gate exits 3\n"+
+			"come from SRC/kbc.toml when present; flags override it. A failed check exits 3\n"+
 			"after the bundle is written.",
 		"kbc build docs -o out/docs-bundle --exclude 'drafts/**' --max-stale 10%", stderr)
 	out := addOutFlag(fs)
@@ -447,11 +447,11 @@ func runBuild(args []string, stdout, stderr io.Writer) int {
 // upToDate reports whether the bundle in out was built from exactly these
 // inputs and still matches its manifest; if so it prints the earlier
 // build's warnings and summary (no passage added, changed or removed),
-// runs the gates on the bundle's reports judged now, and returns the exit
+// runs the checks on the bundle's reports judged now, and returns the exit
 // code. Files changed within a second of the last look are not trusted
 // by their size and time alone: their bytes must be those the last build
 // read (Stamp.Racy), or the build runs.
-func upToDate(out, src string, dir *sources.Dir, inputs string, walked []sources.File, g gates, asJSON bool, start time.Time, stdout, stderr io.Writer) (int, bool) {
+func upToDate(out, src string, dir *sources.Dir, inputs string, walked []sources.File, g checks, asJSON bool, start time.Time, stdout, stderr io.Writer) (int, bool) {
 	st := bundle.ReadStamp(out)
 	if st == nil || st.Inputs != inputs || bundle.ManifestHash(out) != st.Manifest {
 		return 0, false

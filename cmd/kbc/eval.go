@@ -261,8 +261,8 @@ func parseMins(specs []string) ([]minLimit, error) {
 	return out, nil
 }
 
-// report prints rep (and the baseline's means beside it), then checks the
-// gates: each failure is one line on stderr, and the exit code is 3.
+// report prints rep (and the baseline's means beside it), then runs the
+// checks: each failure is one line on stderr, and the exit code is 3.
 func report(stdout, stderr io.Writer, rep, old *eval.Report, asJSON, perQuery bool, limits []minLimit, compare []string, tolerance float64) int {
 	if asJSON {
 		out := struct {
@@ -285,18 +285,18 @@ func report(stdout, stderr io.Writer, rep, old *eval.Report, asJSON, perQuery bo
 	failed := false
 	for _, l := range limits {
 		if v := rep.Mean[l.measure]; v < l.value {
-			fmt.Fprintf(stderr, "gate min failed: %s is %.4f, below %.4f by %.4f\n", l.measure, v, l.value, l.value-v)
+			fmt.Fprintf(stderr, "kbc: check min failed: %s is %.4f, below %.4f by %.4f\n", l.measure, v, l.value, l.value-v)
 			failed = true
 		}
 	}
 	if old != nil {
 		for _, d := range eval.Drops(old.Mean, rep.Mean, compare, tolerance) {
-			fmt.Fprintf(stderr, "gate baseline failed: %s dropped by %.4f (%.4f -> %.4f), tolerance %.4f\n", d.Measure, d.Old-d.New, d.Old, d.New, tolerance)
+			fmt.Fprintf(stderr, "kbc: check baseline failed: %s dropped by %.4f (%.4f -> %.4f), tolerance %.4f\n", d.Measure, d.Old-d.New, d.Old, d.New, tolerance)
 			failed = true
 		}
 	}
 	if failed {
-		return exitGate
+		return exitCheck
 	}
 	return exitOK
 }

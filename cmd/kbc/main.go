@@ -21,7 +21,7 @@
 //	kbc version
 //
 // Run "kbc COMMAND --help" for the flags of one command. Exit codes: 0 ok,
-// 1 failure, 2 bad usage, 3 a quality gate failed.
+// 1 failure, 2 bad usage, 3 a check failed.
 package main
 
 import (
