@@ -54,14 +54,16 @@ type sourceFlags struct {
 func addSourceFlags(fs *flag.FlagSet) *sourceFlags {
 	def := build.DefaultOptions()
 	sf := &sourceFlags{fs: fs}
-	fs.Var(&sf.include, "include", "only read files matching this glob (repeatable; \"**\" spans folders)")
-	fs.Var(&sf.exclude, "exclude", "skip files and folders matching this glob (repeatable)")
-	fs.StringVar(&sf.maxSize, "max-file-size", "10MB", "skip files larger than this (B, kB, MB)")
-	fs.IntVar(&sf.aim, "aim-tokens", def.Settings.AimTokens, "passage size to aim for, in tokens")
-	fs.IntVar(&sf.maxTok, "max-tokens", def.Settings.MaxTokens, "largest passage, in tokens")
+	fs.Var(&sf.include, "include", "only read files matching this `GLOB` (repeatable; \"**\" spans folders)")
+	fs.Var(&sf.exclude, "exclude", "skip files and folders matching this `GLOB` (repeatable)")
+	fs.StringVar(&sf.maxSize, "max-file-size", "10MB", "skip files larger than `SIZE` (B, kB, MB)")
+	fs.IntVar(&sf.aim, "passage-tokens", def.Settings.AimTokens, "passage size to aim for, in `TOKENS`")
+	fs.IntVar(&sf.maxTok, "passage-max-tokens", def.Settings.MaxTokens, "largest passage, in `TOKENS`")
+	addDeprecated(fs, "aim-tokens", "passage-tokens")
+	addDeprecated(fs, "max-tokens", "passage-max-tokens")
 	fs.Float64Var(&sf.threshold, "dup-threshold", def.Dedupe.Threshold, "Jaccard similarity at which passages count as copies")
-	fs.StringVar(&sf.maxStale, "max-stale", "", "check: exit 3 when more than N documents (or N% of them) are stale or expired")
-	fs.StringVar(&sf.maxUnknown, "max-unknown", "", "check: exit 3 when more than N documents (or N% of them) have no usable date")
+	fs.StringVar(&sf.maxStale, "max-stale", "", "check: exit 3 when more than `N` documents (or N% of them) are stale or expired")
+	fs.StringVar(&sf.maxUnknown, "max-unknown", "", "check: exit 3 when more than `N` documents (or N% of them) have no usable date")
 	fs.BoolVar(&sf.failOnDivergent, "fail-on-divergent", false, "check: exit 3 when copies of a passage differ in numbers, versions, dates or units")
 	fs.BoolVar(&sf.failOnSecrets, "fail-on-secrets", false, "check: exit 3 when a credential was found in the sources (see reports/secrets.md)")
 	return sf
@@ -110,14 +112,14 @@ func (sf *sourceFlags) options(src string) (build.Options, checks, error) {
 	if set["max-file-size"] || opts.Walk.MaxSize == 0 {
 		n, err := build.ParseSize(sf.maxSize)
 		if err != nil {
-			return opts, g, fmt.Errorf("-max-file-size: %v", err)
+			return opts, g, fmt.Errorf("--max-file-size: %v", err)
 		}
 		opts.Walk.MaxSize = n
 	}
-	if set["aim-tokens"] {
+	if set["passage-tokens"] {
 		opts.Settings.AimTokens = sf.aim
 	}
-	if set["max-tokens"] {
+	if set["passage-max-tokens"] {
 		opts.Settings.MaxTokens = sf.maxTok
 	}
 	if err := opts.Settings.Validate(); err != nil {
@@ -125,7 +127,7 @@ func (sf *sourceFlags) options(src string) (build.Options, checks, error) {
 	}
 	if set["dup-threshold"] {
 		if sf.threshold <= 0 || sf.threshold > 1 {
-			return opts, g, fmt.Errorf("-dup-threshold %g is not a Jaccard similarity in (0, 1]", sf.threshold)
+			return opts, g, fmt.Errorf("--dup-threshold %g is not a Jaccard similarity in (0, 1]", sf.threshold)
 		}
 		opts.Dedupe.Threshold = sf.threshold
 	}
@@ -356,7 +358,8 @@ func runBuild(args []string, stdout, stderr io.Writer) int {
 			"complete new bundle; a failed build leaves an earlier one untouched. Settings\n"+
 			"come from SRC/kbc.toml when present; flags override it. A failed check exits 3\n"+
 			"after the bundle is written.",
-		"kbc build docs -o out/docs-bundle --exclude 'drafts/**' --max-stale 10%", stderr)
+		"kbc build docs -o out/docs-bundle --exclude 'drafts/**' --max-stale 10%\n"+
+			"kbc build docs -o out/docs-bundle --strict --fail-on-secrets --json", stderr)
 	out := addOutFlag(fs)
 	strict := fs.Bool("strict", false, "treat any bad input file as fatal: exit 1, write no bundle")
 	asJSON := fs.Bool("json", false, "print the summary as JSON")

@@ -45,7 +45,8 @@ a measure named by --min drops by more than --tolerance. Exit codes: 0 ok,
 
 func runEval(args []string, stdout, stderr io.Writer) int {
 	fs := newFlags("eval", evalSynopsis, evalAbout,
-		"kbc eval out --queries questions.tsv --qrels questions.qrels --min recall_10=0.6", stderr)
+		"kbc eval out --queries questions.tsv --qrels questions.qrels --min recall_10=0.6\n"+
+			"kbc eval out --self --json", stderr)
 	qrelsPath := fs.String("qrels", "", "TREC judgements: qid 0 docid grade")
 	runPath := fs.String("run", "", "TREC run to score: qid Q0 docid rank score tag")
 	queriesPath := fs.String("queries", "", "questions to run on BUNDLE: qid<TAB>text")

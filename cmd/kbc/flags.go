@@ -1,7 +1,6 @@
 package main
 
 import (
-	"bytes"
 	"errors"
 	"flag"
 	"fmt"
@@ -13,30 +12,115 @@ import (
 	"github.com/kbc-project/kbc/bundle"
 )
 
-// newFlags returns a flag set whose -h output shows usage and an example.
-func newFlags(name, synopsis, about, example string, stderr io.Writer) *flag.FlagSet {
+// newFlags returns a flag set whose --help output shows usage, the flags
+// that apply (with double dashes, old spellings hidden) and examples, one
+// per line of examples.
+func newFlags(name, synopsis, about, examples string, stderr io.Writer) *flag.FlagSet {
 	fs := flag.NewFlagSet(name, flag.ContinueOnError)
 	fs.SetOutput(stderr)
 	fs.Usage = func() {
 		w := fs.Output()
 		fmt.Fprintf(w, "Usage: kbc %s\n\n%s\n\nFlags:\n", synopsis, about)
-		fs.PrintDefaults()
-		fmt.Fprintf(w, "\nExample:\n  %s\n", example)
+		printFlags(w, fs)
+		fmt.Fprintf(w, "\nExamples:\n")
+		for _, e := range strings.Split(examples, "\n") {
+			fmt.Fprintf(w, "  %s\n", e)
+		}
 	}
 	return fs
+}
+
+// dashed spells a flag as the README does: -k for one letter, --name else.
+func dashed(name string) string {
+	if len(name) == 1 {
+		return "-" + name
+	}
+	return "--" + name
+}
+
+// printFlags lists the flags of fs like flag.PrintDefaults, but with
+// double dashes, an alias beside the flag it stands for, and the old
+// spellings of renamed flags left out.
+func printFlags(w io.Writer, fs *flag.FlagSet) {
+	aliases := map[string][]string{}
+	fs.VisitAll(func(f *flag.Flag) {
+		if a, ok := f.Value.(aliasFlag); ok {
+			aliases[a.of] = append(aliases[a.of], dashed(f.Name))
+		}
+	})
+	fs.VisitAll(func(f *flag.Flag) {
+		switch f.Value.(type) {
+		case aliasFlag, deprecatedFlag:
+			return
+		}
+		arg, usage := flag.UnquoteUsage(f)
+		names := strings.Join(append([]string{dashed(f.Name)}, aliases[f.Name]...), ", ")
+		if arg != "" {
+			names += " " + argName(arg)
+		}
+		switch f.DefValue {
+		case "", "0", "false", "[]", "-1":
+		default:
+			usage += fmt.Sprintf(" (default %s)", f.DefValue)
+		}
+		fmt.Fprintf(w, "  %s\n    \t%s\n", names, strings.ReplaceAll(usage, "\n", "\n    \t"))
+	})
+}
+
+// argName names a flag's value for --help: the name the usage gives it
+// between back quotes, else a word for its type.
+func argName(arg string) string {
+	switch arg {
+	case "string", "value":
+		return "VALUE"
+	case "int", "uint":
+		return "N"
+	case "float":
+		return "X"
+	case "duration":
+		return "DURATION"
+	}
+	return arg
+}
+
+// aliasFlag is a second name of the flag of, listed beside it.
+type aliasFlag struct {
+	flag.Value
+	of string
+}
+
+func (a aliasFlag) IsBoolFlag() bool { return isBool(a.Value) }
+
+// deprecatedFlag is the old spelling of the flag now: it still works for
+// one release, with one line on stderr, and --help leaves it out.
+type deprecatedFlag struct {
+	flag.Value
+	now string
+}
+
+func (d deprecatedFlag) IsBoolFlag() bool { return isBool(d.Value) }
+
+func isBool(v flag.Value) bool {
+	b, ok := v.(interface{ IsBoolFlag() bool })
+	return ok && b.IsBoolFlag()
+}
+
+// addDeprecated keeps old working as a hidden spelling of the flag now.
+func addDeprecated(fs *flag.FlagSet, old, now string) {
+	fs.Var(deprecatedFlag{fs.Lookup(now).Value, now}, old, "deprecated: use "+dashed(now))
 }
 
 // parseArgs parses flags that may come before, between or after the
 // positional arguments ("kbc build SRC -o OUT"), which the flag package
 // alone does not allow. It returns the positional arguments, and the exit
-// code to stop with (-1 to go on).
+// code to stop with (-1 to go on). A bad flag is one line and a pointer
+// to --help; an old spelling of a flag prints one line saying so.
 func parseArgs(fs *flag.FlagSet, args []string, stdout io.Writer) ([]string, int) {
 	var pos []string
 	// The flag package prints usage on its own output before it returns;
 	// hold that back so that --help goes to stdout and nothing else does.
 	stderr := fs.Output()
-	var held bytes.Buffer
-	fs.SetOutput(&held)
+	fs.SetOutput(io.Discard)
 	defer fs.SetOutput(stderr)
 	for {
 		if err := fs.Parse(args); err != nil {
@@ -45,19 +129,51 @@ func parseArgs(fs *flag.FlagSet, args []string, stdout io.Writer) ([]string, int
 				fs.Usage()
 				return nil, exitOK
 			}
-			stderr.Write(held.Bytes())
-			return nil, exitUsage
+			return nil, badUsage(fs, stderr, "%s", flagError(err))
 		}
 		rest := fs.Args()
 		if len(rest) == 0 {
-			return pos, -1
+			break
 		}
 		if len(args) > len(rest) && args[len(args)-len(rest)-1] == "--" {
-			return append(pos, rest...), -1
+			pos = append(pos, rest...)
+			break
 		}
 		pos = append(pos, rest[0])
 		args = rest[1:]
 	}
+	set := map[string]bool{}
+	fs.Visit(func(f *flag.Flag) { set[f.Name] = true })
+	fs.Visit(func(f *flag.Flag) {
+		d, ok := f.Value.(deprecatedFlag)
+		if !ok {
+			return
+		}
+		fmt.Fprintf(stderr, "kbc %s: %s is deprecated and goes away in the next release; use %s\n", fs.Name(), dashed(f.Name), dashed(d.now))
+		if !set[d.now] {
+			fs.Set(d.now, d.String()) // so that the new name reads as given
+		}
+	})
+	return pos, -1
+}
+
+// flagError rewords an error of the flag package in the README's terms.
+func flagError(err error) string {
+	msg := err.Error()
+	if name, ok := strings.CutPrefix(msg, "flag provided but not defined: -"); ok {
+		return "unknown flag " + dashed(name)
+	}
+	if name, ok := strings.CutPrefix(msg, "flag needs an argument: -"); ok {
+		return dashed(name) + " needs a value"
+	}
+	// invalid value "x" for flag -k: parse error
+	if i := strings.Index(msg, " for flag -"); i > 0 && strings.HasPrefix(msg, "invalid ") {
+		name, cause, _ := strings.Cut(msg[i+len(" for flag -"):], ": ")
+		val := strings.TrimPrefix(strings.TrimPrefix(msg[:i], "invalid "), "boolean ")
+		val = strings.TrimPrefix(val, "value ")
+		return fmt.Sprintf("bad value %s for %s: %s", val, dashed(name), cause)
+	}
+	return msg
 }
 
 // multiFlag collects a flag given several times.
@@ -79,8 +195,8 @@ func badUsage(fs *flag.FlagSet, stderr io.Writer, format string, args ...any) in
 
 // addOutFlag registers -o/--out, the bundle folder a command writes.
 func addOutFlag(fs *flag.FlagSet) *string {
-	out := fs.String("o", "", "bundle folder to write (required)")
-	fs.StringVar(out, "out", "", "same as -o")
+	out := fs.String("o", "", "bundle folder `OUT` to write (required)")
+	fs.Var(aliasFlag{fs.Lookup("o").Value, "o"}, "out", "same as -o")
 	return out
 }
 

@@ -111,5 +111,6 @@ func usage(w io.Writer) {
 	for _, c := range commands() {
 		fmt.Fprintf(w, "  %-8s %s\n", c.name, c.summary)
 	}
-	fmt.Fprintf(w, "\nExample:\n  kbc build examples/handbook -o out && kbc query out \"door seal check interval\" --audience drivers\n\nRun \"kbc COMMAND --help\" for the flags of one command.\n")
+	fmt.Fprintf(w, "\nExamples:\n  kbc build examples/handbook -o out && kbc query out \"door seal check interval\" --audience drivers\n"+
+		"  kbc stale docs --max-stale 10%%\n\nRun \"kbc COMMAND --help\" for the flags of one command.\n")
 }

@@ -45,7 +45,8 @@ func runPublish(args []string, stdout, stderr io.Writer) int {
 			"nothing is overwritten and publish exits 1; run it again.\n"+
 			"With --rollback ID it uploads nothing and points latest (or --tag) at the stored\n"+
 			"version ID (at least 8 leading hex digits).\n\n"+storeKinds,
-		"kbc publish out s3://docs-bundles/handbook?region=eu-west-1 --tag release-7", stderr)
+		"kbc publish out s3://docs-bundles/handbook?region=eu-west-1 --tag release-7\n"+
+			"kbc publish --rollback 3f2a9c1d ./bundles", stderr)
 	var tags multiFlag
 	fs.Var(&tags, "tag", "also point `NAME` at the version; repeatable")
 	rollback := fs.String("rollback", "", "point latest (or the one --tag) at the stored version `ID` instead of publishing")
@@ -106,7 +107,8 @@ func runPull(args []string, stdout, stderr io.Writer) int {
 			"mismatch it names the file, exits 1 and leaves DIR as it was. Without --tag or --id it\n"+
 			"pulls what \"latest\" (or SRC's :TAG) names. The id names the passages only; --digest\n"+
 			"(printed by kbc publish) pins every file of the bundle.\n\n"+storeKinds,
-		"kbc pull oci://registry.example.com/docs/handbook:stable /srv/assistant/bundle", stderr)
+		"kbc pull oci://registry.example.com/docs/handbook:stable /srv/assistant/bundle\n"+
+			"kbc pull ./bundles /srv/assistant/bundle --tag release-7", stderr)
 	tag := fs.String("tag", "", "pull the version the pointer `NAME` names")
 	id := fs.String("id", "", "pull the version `ID` (at least 8 leading hex digits)")
 	digest := fs.String("digest", "", "fail unless the bundle's files digest is `sha256:HEX` (pins every file)")
@@ -146,7 +148,8 @@ func runVersions(args []string, stdout, stderr io.Writer) int {
 		"Versions lists the bundles in the store, newest first: id, time, source commit, counts\n"+
 			"and the pointers that name each. An incomplete version (an interrupted publish) is\n"+
 			"marked so.\n\n"+storeKinds,
-		"kbc versions ./bundles --json", stderr)
+		"kbc versions ./bundles\n"+
+			"kbc versions oci://registry.example.com/docs/handbook --json", stderr)
 	asJSON := fs.Bool("json", false, "print the versions as a JSON array")
 	pos, code := parseArgs(fs, args, stdout)
 	if code >= 0 {
@@ -203,7 +206,8 @@ func runPrune(args []string, stdout, stderr io.Writer) int {
 	fs := newFlags("prune", "prune STORE --keep N",
 		"Prune removes the versions beyond the N newest, except any a pointer names and any\n"+
 			"whose upload is not complete.\n\n"+storeKinds,
-		"kbc prune ./bundles --keep 10", stderr)
+		"kbc prune ./bundles --keep 10\n"+
+			"kbc prune s3://docs-bundles/handbook?region=eu-west-1 --keep 5", stderr)
 	keep := fs.Int("keep", -1, "number of newest versions to keep (required)")
 	pos, code := parseArgs(fs, args, stdout)
 	if code >= 0 {

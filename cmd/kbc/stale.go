@@ -21,7 +21,8 @@ func runStale(args []string, stdout, stderr io.Writer) int {
 			"folder it reads and dates the pages (nothing is written); given a bundle it\n"+
 			"judges the dates the bundle recorded again at the current time\n"+
 			"(SOURCE_DATE_EPOCH when set). Checks exit 3 when crossed.",
-		"kbc stale docs --max-stale 5 --fail-on-divergent", stderr)
+		"kbc stale docs --max-stale 5 --fail-on-divergent\n"+
+			"kbc stale out --json", stderr)
 	asJSON := fs.Bool("json", false, "print the report as JSON")
 	sf := addSourceFlags(fs)
 	pos, code := parseArgs(fs, args, stdout)

@@ -33,7 +33,8 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 			"divergent copies. A page that does not parse while being edited is named with its\n"+
 			"path:line and the last good bundle stays. Ctrl-C stops it; the last complete\n"+
 			"bundle is left in OUT.",
-		"kbc watch docs -o /tmp/docs-bundle --debounce 300ms", stderr)
+		"kbc watch docs -o /tmp/docs-bundle --debounce 300ms\n"+
+			"kbc watch docs -o /tmp/docs-bundle --serve 127.0.0.1:8470", stderr)
 	out := addOutFlag(fs)
 	debounce := fs.Duration("debounce", watch.DefaultDebounce, "quiet period after the last change before a rebuild")
 	serve := fs.String("serve", "", "serve a live preview page on ADDR (host:port, loopback only unless --serve-any)")
