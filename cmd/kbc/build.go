@@ -313,10 +313,11 @@ func writeBundle(sess *session, src string, res *build.Result, opts build.Option
 		SourceCommit: commit,
 		SourceDirty:  dirty,
 		BuiltAt:      builtAt,
+		// The names and meanings of build --json's stats (see README, "Counts").
 		Counts: map[string]int{
 			"documents": st.Documents, "empty_documents": st.Empty, "skipped": st.Skipped,
 			"warnings": st.Warnings, "boilerplate_dropped": st.BoilerplateDropped,
-			"duplicates_removed": st.Duplicates, "divergent_copies": st.Divergent, "stale_documents": st.Stale,
+			"duplicates_removed": st.Duplicates, "divergent_copies": st.Divergent, "stale": st.Stale, "expired": st.Expired,
 			"secrets_redacted": st.Secrets, "hidden_dropped": st.Hidden, "assistant_lints": st.Lints,
 		},
 		Files:   files,

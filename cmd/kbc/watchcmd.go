@@ -120,6 +120,9 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 			if d := res.Stats.Stale - last.Stats.Stale; d != 0 {
 				line += fmt.Sprintf("; stale %+d (now %d)", d, res.Stats.Stale)
 			}
+			if d := res.Stats.Expired - last.Stats.Expired; d != 0 {
+				line += fmt.Sprintf("; expired %+d (now %d)", d, res.Stats.Expired)
+			}
 			if d := res.Stats.Divergent - last.Stats.Divergent; d != 0 {
 				line += fmt.Sprintf("; divergent copies %+d (now %d)", d, res.Stats.Divergent)
 			}
