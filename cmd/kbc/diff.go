@@ -29,7 +29,9 @@ func runDiff(args []string, stdout, stderr io.Writer) int {
 	for i, dir := range pos {
 		p, err := bundle.ReadPrior(dir)
 		if err == nil && p == nil {
-			err = fmt.Errorf("no bundle here (no manifest.json)")
+			_, err = bundle.ReadManifest(dir)
+			fmt.Fprintf(stderr, "kbc diff: %s\n", bundleProblem("diff", dir, err))
+			return exitFailure
 		}
 		if err == nil {
 			_, err = p.All()

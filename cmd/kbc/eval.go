@@ -165,7 +165,7 @@ func runEval(args []string, stdout, stderr io.Writer) int {
 func evalBundle(dir string, qs []eval.Query, qrels eval.Qrels, opt bundle.EvalOptions, stderr io.Writer) (*eval.Report, eval.Run, int) {
 	b, err := bundle.Open(dir)
 	if err != nil {
-		fmt.Fprintf(stderr, "kbc eval: %v\n", err)
+		fmt.Fprintf(stderr, "kbc eval: %s\n", bundleProblem("eval", dir, err))
 		return nil, nil, exitFailure
 	}
 	defer b.Close()
@@ -343,7 +343,7 @@ func printScores(w io.Writer, rep, old *eval.Report, perQuery bool) {
 func selfReport(dir string, opt bundle.EvalOptions, asJSON bool, stdout, stderr io.Writer) int {
 	b, err := bundle.Open(dir)
 	if err != nil {
-		fmt.Fprintf(stderr, "kbc eval: %v\n", err)
+		fmt.Fprintf(stderr, "kbc eval: %s\n", bundleProblem("eval", dir, err))
 		return exitFailure
 	}
 	defer b.Close()

@@ -5,6 +5,7 @@ import (
 	"flag"
 	"fmt"
 	"io"
+	iofs "io/fs"
 	"os"
 	"path/filepath"
 	"strings"
@@ -220,4 +221,21 @@ func srcAndOut(fs *flag.FlagSet, pos []string, out string, stderr io.Writer) (st
 		return "", exitFailure
 	}
 	return pos[0], -1
+}
+
+// bundleProblem says why dir could not be read as a bundle by the command
+// name, and what to do instead: build a source folder first, or name the
+// folder a build wrote.
+func bundleProblem(name, dir string, err error) string {
+	var nb *bundle.NotBundleError
+	if errors.As(err, &nb) {
+		if nb.Source {
+			return fmt.Sprintf("%v; build one from it first: kbc build %s -o OUT, then kbc %s OUT", err, dir, name)
+		}
+		return fmt.Sprintf("%v; give the folder kbc build wrote (its -o OUT)", err)
+	}
+	if _, serr := os.Stat(dir); errors.Is(serr, iofs.ErrNotExist) {
+		return fmt.Sprintf("%s: no such folder", dir)
+	}
+	return err.Error()
 }

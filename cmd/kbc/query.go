@@ -42,7 +42,7 @@ func openForSearch(fs *flag.FlagSet, dir string, stderr io.Writer) (*bundle.Bund
 	}
 	b, err := bundle.Open(dir)
 	if err != nil {
-		fmt.Fprintf(stderr, "kbc %s: %v\n", fs.Name(), err)
+		fmt.Fprintf(stderr, "kbc %s: %s\n", fs.Name(), bundleProblem(fs.Name(), dir, err))
 		return nil, now, exitFailure
 	}
 	return b, now, -1

@@ -24,7 +24,7 @@ func runVerify(args []string, stdout, stderr io.Writer) int {
 	}
 	bad, err := bundle.Verify(pos[0])
 	if err != nil {
-		fmt.Fprintf(stderr, "kbc verify: %v\n", err)
+		fmt.Fprintf(stderr, "kbc verify: %s\n", bundleProblem("verify", pos[0], err))
 		return exitFailure
 	}
 	if *asJSON {
