@@ -167,7 +167,7 @@ func (g checks) check(st *build.StalenessReport, divergent, secrets int, stderr 
 		checkSecrets(g.secrets, secrets),
 	} {
 		if msg != "" {
-			fmt.Fprintf(stderr, "kbc: %s\n", msg)
+			fmt.Fprintln(stderr, paintFor(stderr, os.Getenv).fail("kbc: "+msg))
 			code = exitCheck
 		}
 	}
@@ -285,7 +285,7 @@ func interrupted() (context.Context, context.CancelFunc) {
 
 func printProblems(res *build.Result, stderr io.Writer) {
 	for _, n := range res.Staleness.Notes {
-		fmt.Fprintf(stderr, "kbc: warning: %s\n", n)
+		fmt.Fprintln(stderr, paintFor(stderr, os.Getenv).warn("kbc: warning: "+n))
 	}
 	for _, p := range res.Problems {
 		fmt.Fprintln(stderr, p.Error())
@@ -364,6 +364,8 @@ func runBuild(args []string, stdout, stderr io.Writer) int {
 	out := addOutFlag(fs)
 	strict := fs.Bool("strict", false, "treat any bad input file as fatal: exit 1, write no bundle")
 	asJSON := fs.Bool("json", false, "print the summary as JSON")
+	verbose := fs.Bool("v", false, "also print the near-copy search's LSH banding in the summary")
+	fs.Var(aliasFlag{fs.Lookup("v").Value, "v"}, "verbose", "same as -v")
 	sf := addSourceFlags(fs)
 	pos, code := parseArgs(fs, args, stdout)
 	if code >= 0 {
@@ -391,7 +393,7 @@ func runBuild(args []string, stdout, stderr io.Writer) int {
 		extra := fmt.Sprintf("%s\x00%s %t\x00%s", toolKey(), sess.commit, sess.dirty, os.Getenv("SOURCE_DATE_EPOCH"))
 		if dir, err := sources.OpenDir(src); err == nil {
 			inputs, walked = build.InputsDigest(dir, opts, extra)
-			code, ok := upToDate(*out, src, dir, inputs, walked, g, *asJSON, start, stdout, stderr)
+			code, ok := upToDate(*out, src, dir, inputs, walked, g, *asJSON, *verbose, start, stdout, stderr)
 			dir.Close()
 			if ok {
 				return code
@@ -443,7 +445,7 @@ func runBuild(args []string, stdout, stderr io.Writer) int {
 		enc.SetIndent("", "  ")
 		enc.Encode(sum)
 	} else {
-		sum.print(stdout)
+		sum.print(stdout, *verbose)
 	}
 	return g.check(res.Staleness, res.Stats.Divergent, res.Stats.Secrets, stderr)
 }
@@ -455,7 +457,7 @@ func runBuild(args []string, stdout, stderr io.Writer) int {
 // code. Files changed within a second of the last look are not trusted
 // by their size and time alone: their bytes must be those the last build
 // read (Stamp.Racy), or the build runs.
-func upToDate(out, src string, dir *sources.Dir, inputs string, walked []sources.File, g checks, asJSON bool, start time.Time, stdout, stderr io.Writer) (int, bool) {
+func upToDate(out, src string, dir *sources.Dir, inputs string, walked []sources.File, g checks, asJSON, verbose bool, start time.Time, stdout, stderr io.Writer) (int, bool) {
 	st := bundle.ReadStamp(out)
 	if st == nil || st.Inputs != inputs || bundle.ManifestHash(out) != st.Manifest {
 		return 0, false
@@ -494,7 +496,7 @@ func upToDate(out, src string, dir *sources.Dir, inputs string, walked []sources
 		enc.SetIndent("", "  ")
 		enc.Encode(sum)
 	} else {
-		sum.print(stdout)
+		sum.print(stdout, verbose)
 	}
 	return g.check(stale, divergent, secrets, stderr), true
 }
@@ -543,12 +545,15 @@ type summary struct {
 	Seconds          float64            `json:"seconds"`
 }
 
-func (s summary) print(w io.Writer) {
+// print writes the summary for people; verbose (-v) adds the LSH banding
+// line, which only someone tuning the duplicate search needs.
+func (s summary) print(w io.Writer, verbose bool) {
 	st := s.Stats
+	p := paintFor(w, os.Getenv)
 	if s.UpToDate {
-		fmt.Fprintf(w, "up to date: %s -> %s (no input changed; the bundle was checked and left as it was)\n", s.Source, s.Out)
+		fmt.Fprintf(w, "%s: %s -> %s (no input changed; the bundle was checked and left as it was)\n", p.strong("up to date"), s.Source, s.Out)
 	} else {
-		fmt.Fprintf(w, "built %s -> %s\n", s.Source, s.Out)
+		fmt.Fprintf(w, "%s %s -> %s\n", p.strong("built"), s.Source, s.Out)
 	}
 	fmt.Fprintf(w, "  documents    %d read, %d skipped (%s)", st.Documents, st.Skipped, sizeString(st.SourceBytes))
 	if st.Reused > 0 {
@@ -566,8 +571,10 @@ func (s summary) print(w io.Writer) {
 	if st.Divergent > 0 {
 		fmt.Fprintf(w, "; %d divergent", st.Divergent)
 	}
-	fmt.Fprintf(w, "\n  near copies  Jaccard >= %g; LSH %d bands x %d rows catches %.1f%% of pairs at %g, %.1f%% at 0.5",
-		s.Threshold, s.Bands, s.Rows, 100*s.CatchAtThreshold, s.Threshold, 100*s.CatchAtHalf)
+	if verbose {
+		fmt.Fprintf(w, "\n  near copies  Jaccard >= %g; LSH %d bands x %d rows catches %.1f%% of pairs at %g, %.1f%% at 0.5",
+			s.Threshold, s.Bands, s.Rows, 100*s.CatchAtThreshold, s.Threshold, 100*s.CatchAtHalf)
+	}
 	fmt.Fprintf(w, "\n  boilerplate  %d blocks dropped (%d distinct texts)\n", st.BoilerplateDropped, s.BoilerplateTexts)
 	c := s.Staleness
 	fmt.Fprintf(w, "  freshness    %d fresh, %d due soon, %d stale, %d expired\n", c.Fresh, c.DueSoon, c.Stale, c.Expired)

@@ -286,13 +286,13 @@ func report(stdout, stderr io.Writer, rep, old *eval.Report, asJSON, perQuery bo
 	failed := false
 	for _, l := range limits {
 		if v := rep.Mean[l.measure]; v < l.value {
-			fmt.Fprintf(stderr, "kbc: check min failed: %s is %.4f, below %.4f by %.4f\n", l.measure, v, l.value, l.value-v)
+			fmt.Fprintln(stderr, paintFor(stderr, os.Getenv).fail(fmt.Sprintf("kbc: check min failed: %s is %.4f, below %.4f by %.4f", l.measure, v, l.value, l.value-v)))
 			failed = true
 		}
 	}
 	if old != nil {
 		for _, d := range eval.Drops(old.Mean, rep.Mean, compare, tolerance) {
-			fmt.Fprintf(stderr, "kbc: check baseline failed: %s dropped by %.4f (%.4f -> %.4f), tolerance %.4f\n", d.Measure, d.Old-d.New, d.Old, d.New, tolerance)
+			fmt.Fprintln(stderr, paintFor(stderr, os.Getenv).fail(fmt.Sprintf("kbc: check baseline failed: %s dropped by %.4f (%.4f -> %.4f), tolerance %.4f", d.Measure, d.Old-d.New, d.Old, d.New, tolerance)))
 			failed = true
 		}
 	}
