@@ -46,7 +46,7 @@ func TestColourOnTerminal(t *testing.T) {
 	os.WriteFile(filepath.Join(src, "old.md"), []byte("---\nupdated: 2020-01-01\n---\n# Old rota\n\nWeekend cover rotates between the team leaders.\n"), 0o644)
 	for _, tc := range []struct {
 		name, noColor, term string
-		colour               bool
+		colour              bool
 	}{
 		{"terminal", "", "xterm", true},
 		{"NO_COLOR", "1", "xterm", false},
