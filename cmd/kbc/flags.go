@@ -130,7 +130,7 @@ func parseArgs(fs *flag.FlagSet, args []string, stdout io.Writer) ([]string, int
 				fs.Usage()
 				return nil, exitOK
 			}
-			return nil, badUsage(fs, stderr, "%s", flagError(err))
+			return nil, badUsage(fs, stderr, "%s", flagError(fs, err))
 		}
 		rest := fs.Args()
 		if len(rest) == 0 {
@@ -158,10 +158,20 @@ func parseArgs(fs *flag.FlagSet, args []string, stdout io.Writer) ([]string, int
 	return pos, -1
 }
 
-// flagError rewords an error of the flag package in the README's terms.
-func flagError(err error) string {
+// flagError rewords an error of the flag package in the README's terms,
+// with the nearest flag of fs for a misspelt one.
+func flagError(fs *flag.FlagSet, err error) string {
 	msg := err.Error()
 	if name, ok := strings.CutPrefix(msg, "flag provided but not defined: -"); ok {
+		var names []string
+		fs.VisitAll(func(f *flag.Flag) {
+			if _, old := f.Value.(deprecatedFlag); !old {
+				names = append(names, f.Name)
+			}
+		})
+		if near := nearest(strings.TrimPrefix(name, "-"), names); near != "" {
+			return fmt.Sprintf("unknown flag %s (did you mean %s?)", dashed(name), dashed(near))
+		}
 		return "unknown flag " + dashed(name)
 	}
 	if name, ok := strings.CutPrefix(msg, "flag needs an argument: -"); ok {
@@ -238,4 +248,44 @@ func bundleProblem(name, dir string, err error) string {
 		return fmt.Sprintf("%s: no such folder", dir)
 	}
 	return err.Error()
+}
+
+// nearest returns the candidate closest to name when it is a likely
+// misspelling (at most two edits, and fewer than a third of its letters),
+// else "". Ties go to the first candidate.
+func nearest(name string, candidates []string) string {
+	best, bestD := "", 3
+	for _, c := range candidates {
+		if d := editDistance(name, c); d < bestD && 3*d < max(len(name), len(c)) {
+			best, bestD = c, d
+		}
+	}
+	return best
+}
+
+// editDistance is the optimal string alignment distance between a and b,
+// in bytes: insertions, deletions, substitutions and swaps of two
+// neighbours ("biuld") each count one.
+func editDistance(a, b string) int {
+	d := make([][]int, len(a)+1)
+	for i := range d {
+		d[i] = make([]int, len(b)+1)
+		d[i][0] = i
+	}
+	for j := range d[0] {
+		d[0][j] = j
+	}
+	for i := 1; i <= len(a); i++ {
+		for j := 1; j <= len(b); j++ {
+			cost := 1
+			if a[i-1] == b[j-1] {
+				cost = 0
+			}
+			d[i][j] = min(d[i-1][j]+1, d[i][j-1]+1, d[i-1][j-1]+cost)
+			if i > 1 && j > 1 && a[i-1] == b[j-2] && a[i-2] == b[j-1] {
+				d[i][j] = min(d[i][j], d[i-2][j-2]+1)
+			}
+		}
+	}
+	return d[len(a)][len(b)]
 }

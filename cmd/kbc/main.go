@@ -103,6 +103,14 @@ func run(args []string, stdout, stderr io.Writer) int {
 			return c.run(args[1:], stdout, stderr)
 		}
 	}
+	var names []string
+	for _, c := range commands() {
+		names = append(names, c.name)
+	}
+	if near := nearest(args[0], names); near != "" {
+		fmt.Fprintf(stderr, "kbc: unknown command %q (did you mean %s?)\nRun \"kbc help\" for the commands.\n", args[0], near)
+		return exitUsage
+	}
 	fmt.Fprintf(stderr, "kbc: unknown command %q\nRun \"kbc help\" for the commands.\n", args[0])
 	return exitUsage
 }
