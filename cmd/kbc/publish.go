@@ -137,7 +137,8 @@ func runPull(args []string, stdout, stderr io.Writer) int {
 			"file's SHA-256 against the bundle's manifest, and only then swaps it into DIR. On any\n"+
 			"mismatch it names the file, exits 1 and leaves DIR as it was. Without --tag or --id it\n"+
 			"pulls what \"latest\" (or SRC's :TAG) names. The id names the passages only; --digest\n"+
-			"(printed by kbc publish) pins every file of the bundle.\n\n"+storeKinds,
+			"(printed by kbc publish) pins every file of the bundle. The folders above DIR are\n"+
+			"created when missing.\n\n"+storeKinds,
 		"kbc pull oci://registry.example.com/docs/handbook:stable /srv/assistant/bundle\n"+
 			"kbc pull ./bundles /srv/assistant/bundle --tag release-7", stderr)
 	tag := fs.String("tag", "", "pull the version the pointer `NAME` names")
@@ -193,7 +194,8 @@ func runVersions(args []string, stdout, stderr io.Writer) int {
 	fs := newFlags("versions", "versions STORE [--json]",
 		"Versions lists the bundles in the store, newest first: id, time, source commit, counts\n"+
 			"and the pointers that name each. An incomplete version (an interrupted publish) is\n"+
-			"marked so.\n\n"+storeKinds,
+			"marked so. A store that does not exist exits 1 (\"no such store\"); one with nothing\n"+
+			"published yet says \"no versions yet\".\n\n"+storeKinds,
 		"kbc versions ./bundles\n"+
 			"kbc versions oci://registry.example.com/docs/handbook --json", stderr)
 	asJSON := fs.Bool("json", false, "print the versions as a JSON array")
