@@ -34,7 +34,7 @@ type StatusCounts struct {
 	Total   int `json:"total"`
 }
 
-// StaleOrExpired is the count the max-stale gate reads.
+// StaleOrExpired is the count the max-stale check reads.
 func (c StatusCounts) StaleOrExpired() int { return c.Stale + c.Expired }
 
 func (c *StatusCounts) add(s fresh.Status) {

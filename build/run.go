@@ -57,7 +57,7 @@ func DefaultOptions() Options {
 type Stats struct {
 	Files              int   `json:"files"`               // source files found
 	Documents          int   `json:"documents"`           // files that became documents
-	Empty              int   `json:"empty"`               // documents with front matter only, so no passage
+	Empty              int   `json:"empty_documents"`     // documents with front matter only, so no passage
 	Skipped            int   `json:"skipped"`             // files left out because of a problem
 	Warnings           int   `json:"warnings"`            // problems, skipped files included
 	Passages           int   `json:"passages"`            // passages made
@@ -65,13 +65,14 @@ type Stats struct {
 	SourceBytes        int64 `json:"source_bytes"`        // bytes of the files read
 	BoilerplateDropped int   `json:"boilerplate_dropped"` // blocks dropped as site boilerplate
 	SplitPassages      int   `json:"split_passages"`      // passages cut from a block over the budget
-	Duplicates         int   `json:"duplicates"`          // copies left out, listed on their canonical passage
-	Divergent          int   `json:"divergent"`           // near copies that differ in numbers, dates or units
-	Stale              int   `json:"stale"`               // documents stale or expired
+	Duplicates         int   `json:"duplicates_removed"`  // copies left out, listed on their canonical passage
+	Divergent          int   `json:"divergent_copies"`    // near copies that differ in numbers, dates or units
+	Stale              int   `json:"stale"`               // documents with status stale (expired ones not included)
+	Expired            int   `json:"expired"`             // documents past their expiry date
 	Reused             int   `json:"reused"`              // documents taken from the build cache, not parsed
-	Secrets            int   `json:"secrets"`             // credentials replaced by a marker
-	Hidden             int   `json:"hidden"`              // characters and elements dropped as hidden from readers
-	Lints              int   `json:"lints"`               // visible text flagged as addressing an assistant
+	Secrets            int   `json:"secrets_redacted"`    // credentials replaced by a marker
+	Hidden             int   `json:"hidden_dropped"`      // characters and elements dropped as hidden from readers
+	Lints              int   `json:"assistant_lints"`     // visible text flagged as addressing an assistant
 }
 
 // Result is everything one build produced, sorted so that the same input
@@ -224,7 +225,7 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 	res.Staleness = NewStalenessReport(dated, now, opts.Fresh)
 	res.Secrets, res.Hidden = NewSecretsReport(docs), NewHiddenReport(docs)
 	res.Stats.Secrets, res.Stats.Hidden, res.Stats.Lints = res.Secrets.Total, res.Hidden.Total, len(res.Hidden.Lints)
-	res.Stats.Stale = res.Staleness.Counts.StaleOrExpired()
+	res.Stats.Stale, res.Stats.Expired = res.Staleness.Counts.Stale, res.Staleness.Counts.Expired
 
 	// Stage 3: find the site boilerplate across all documents.
 	// Each document's block keys come from the cache or from reading it.

@@ -3,6 +3,7 @@ package bundle_test
 import (
 	"crypto/sha256"
 	"encoding/hex"
+	"errors"
 	"fmt"
 	"log"
 	"os"
@@ -170,4 +171,21 @@ func ExampleBundle_Evaluate() {
 	if len(rep.Unjudged) > 0 {
 		fmt.Println("skipped, no judgements:", rep.Unjudged)
 	}
+}
+
+// Open on a docs folder, not a bundle, says which it is.
+func ExampleNotBundleError() {
+	src, err := os.MkdirTemp("", "kbc-example-")
+	if err != nil {
+		log.Fatal(err)
+	}
+	defer os.RemoveAll(src)
+	if err := os.WriteFile(filepath.Join(src, "yard.md"), []byte("# Yard\n"), 0o644); err != nil {
+		log.Fatal(err)
+	}
+	_, err = bundle.Open(src)
+	var nb *bundle.NotBundleError
+	fmt.Println(errors.As(err, &nb), nb.Source)
+	// Output:
+	// true true
 }

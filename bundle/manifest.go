@@ -80,12 +80,13 @@ type Manifest struct {
 // the bound only stops a hostile copy from filling memory.
 const MaxManifestSize = 8 << 20
 
-// ReadManifest reads and checks dir/manifest.json.
+// ReadManifest reads and checks dir/manifest.json. For a folder that has
+// none it returns a *NotBundleError.
 func ReadManifest(dir string) (*Manifest, error) {
 	path := filepath.Join(dir, ManifestFile)
 	f, err := os.Open(path)
 	if err != nil {
-		return nil, err
+		return nil, notBundle(dir, err)
 	}
 	defer f.Close()
 	if fi, err := f.Stat(); err != nil {

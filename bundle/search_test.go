@@ -590,7 +590,7 @@ func TestOpenErrors(t *testing.T) {
 		change func(dir string) error
 		want   string // part of the error
 	}{
-		{"no manifest", func(dir string) error { return os.Remove(filepath.Join(dir, ManifestFile)) }, "no such file"},
+		{"no manifest", func(dir string) error { return os.Remove(filepath.Join(dir, ManifestFile)) }, "is not a kbc bundle (it has no manifest.json)"},
 		{"newer format", func(dir string) error {
 			p := filepath.Join(dir, ManifestFile)
 			data, _ := os.ReadFile(p)

@@ -7,12 +7,13 @@ import (
 )
 
 // Options tunes Find. The zero value of each field means its default, so
-// Options{} behaves like DefaultOptions().
+// Options{} behaves like DefaultOptions(). A bundle manifest records the
+// options under their snake_case JSON names, as it does every setting.
 type Options struct {
 	// Hashes is the number of MinHash values per passage (default 128).
-	Hashes int
+	Hashes int `json:"hashes"`
 	// Shingle is the number of words per shingle (default 5).
-	Shingle int
+	Shingle int `json:"shingle"`
 	// Threshold is the Jaccard similarity of shingle sets at or above which
 	// two passages are near duplicates (default 0.8). It must lie in (0, 1].
 	// One changed word alters up to Shingle shingles, so with n shingles
@@ -20,19 +21,19 @@ type Options struct {
 	// passage needs about 45 shingles (49 words) before a one-word change
 	// keeps it at 0.8, and 5% of the words changed at random places gives
 	// about 0.65, below it.
-	Threshold float64
+	Threshold float64 `json:"threshold"`
 	// MinShingles is the number of distinct shingles below which a passage
 	// is compared by exact hash only (default 8). A judgement call, not a
 	// published value: below about 8 shingles (12 words at Shingle 5) a
 	// single changed word moves the Jaccard by more than 0.2, so the
 	// threshold says little, and such snippets ("See also", "Returns None")
 	// are the ones that recur by chance across unrelated pages.
-	MinShingles int
+	MinShingles int `json:"min_shingles"`
 	// MaxBucket is the largest LSH bucket whose members are all compared
 	// pairwise (default 64, a judgement call: 2016 pairs). A bigger bucket
 	// is compared as a star and a chain (see Find), which keeps the pair
 	// count linear in its size.
-	MaxBucket int
+	MaxBucket int `json:"max_bucket"`
 	// Workers is the number of goroutines hashing and verifying passages;
 	// 0 means runtime.GOMAXPROCS(0). The result does not depend on it,
 	// so it is not recorded with the settings (a manifest must not depend
@@ -42,7 +43,7 @@ type Options struct {
 	// candidate pairs are verified (default 256 MiB). When the sets of all
 	// candidates do not fit, pairs are verified in rounds and a set may be
 	// rebuilt from its text in more than one round.
-	SetMemory int64
+	SetMemory int64 `json:"set_memory"`
 	// Memo, when set, remembers each text's hashing work between calls,
 	// so that a Find over mostly the same texts (a rebuild after one page
 	// changed) hashes only the new ones. It is not an option of the

@@ -1,6 +1,7 @@
 package dedupe
 
 import (
+	"encoding/json"
 	"fmt"
 	"math"
 	"testing"
@@ -100,5 +101,17 @@ func TestOptionsErrors(t *testing.T) {
 				t.Errorf("Find error = %v, want %q", err, tt.want)
 			}
 		})
+	}
+}
+
+// A manifest records the options in snake_case, as every other setting.
+func TestOptionsJSON(t *testing.T) {
+	data, err := json.Marshal(DefaultOptions())
+	if err != nil {
+		t.Fatal(err)
+	}
+	want := `{"hashes":128,"shingle":5,"threshold":0.8,"min_shingles":8,"max_bucket":64,"set_memory":268435456}`
+	if string(data) != want {
+		t.Errorf("got  %s\nwant %s", data, want)
 	}
 }

@@ -91,6 +91,20 @@ func openS3(ctx context.Context, loc string) (*blobStore, error) {
 	return &blobStore{bucket: b, prefix: prefix}, nil
 }
 
+func (s *blobStore) exists(ctx context.Context) error {
+	if s.rootFS != nil {
+		return nil // a folder: OpenExisting looked before Open made it
+	}
+	ok, err := s.bucket.IsAccessible(ctx)
+	if err != nil {
+		return err
+	}
+	if !ok {
+		return ErrNoStore
+	}
+	return nil
+}
+
 func (s *blobStore) close() error {
 	if s.rootFS != nil {
 		s.rootFS.Close()

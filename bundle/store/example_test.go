@@ -2,6 +2,7 @@ package store_test
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"log"
 	"os"
@@ -61,4 +62,28 @@ func ExampleRedact() {
 	// Output:
 	// s3://docs?endpoint=http://[redacted]@minio:9000&region=eu-west-1
 	// host=db user=kbc password=[redacted] dbname=docs
+}
+
+// A reader of a store tells a mistyped location from a store with
+// nothing published yet.
+func ExampleOpenExisting() {
+	tmp, err := os.MkdirTemp("", "kbc-example-")
+	if err != nil {
+		log.Fatal(err)
+	}
+	defer os.RemoveAll(tmp)
+	ctx := context.Background()
+	_, err = store.OpenExisting(ctx, filepath.Join(tmp, "bundels"))
+	fmt.Println("no such store:", errors.Is(err, store.ErrNoStore))
+
+	s, err := store.OpenExisting(ctx, tmp)
+	if err != nil {
+		log.Fatal(err)
+	}
+	defer s.Close()
+	vs, err := s.Versions(ctx)
+	fmt.Println("versions:", len(vs), err)
+	// Output:
+	// no such store: true
+	// versions: 0 <nil>
 }

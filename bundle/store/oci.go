@@ -10,6 +10,7 @@ import (
 	"fmt"
 	"io"
 	"net"
+	"net/http"
 	"os"
 	"path/filepath"
 	"slices"
@@ -23,6 +24,7 @@ import (
 	"oras.land/oras-go/v2/registry/remote"
 	"oras.land/oras-go/v2/registry/remote/auth"
 	"oras.land/oras-go/v2/registry/remote/credentials"
+	"oras.land/oras-go/v2/registry/remote/errcode"
 	"oras.land/oras-go/v2/registry/remote/retry"
 
 	"github.com/kbc-project/kbc/bundle"
@@ -417,6 +419,17 @@ func (s *ociStore) tags(ctx context.Context) ([]string, error) {
 		return nil, nil // no repository yet
 	}
 	return out, err
+}
+
+// exists asks for the repository's tags: a registry answers "name
+// unknown" for a repository nothing was pushed to.
+func (s *ociStore) exists(ctx context.Context) error {
+	err := s.repo.Tags(ctx, "", func([]string) error { return nil })
+	var re *errcode.ErrorResponse
+	if notFound(err) || errors.As(err, &re) && re.StatusCode == http.StatusNotFound {
+		return ErrNoStore
+	}
+	return err
 }
 
 func (s *ociStore) versions(ctx context.Context) ([]Version, error) {

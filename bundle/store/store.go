@@ -5,6 +5,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"io/fs"
 	"net/url"
 	"os"
 	"path/filepath"
@@ -26,6 +27,11 @@ var ErrConflict = errors.New("pointer moved by another publisher")
 
 // ErrNotFound means the pointer or version asked for is not in the store.
 var ErrNotFound = errors.New("not found")
+
+// ErrNoStore means OpenExisting found no store at the location: a folder
+// that is not there, an S3 bucket that does not exist, or a registry
+// repository nothing was ever pushed to. Check with errors.Is.
+var ErrNoStore = errors.New("no such store")
 
 // Store is an open bundle store. Its methods may be called concurrently.
 type Store struct {
@@ -84,15 +90,16 @@ type PublishOptions struct {
 
 // PublishResult says what Publish did.
 type PublishResult struct {
-	BundleID string
+	BundleID string `json:"bundle_id"`
 	// FilesDigest is the bundle's files digest (see Ref.Digest).
-	FilesDigest string
+	FilesDigest string `json:"files_digest,omitempty"`
 	// Uploaded and Skipped count objects (files, markers, layers) sent
 	// and found already in the store; UploadedBytes sums the former.
-	Uploaded, Skipped int
-	UploadedBytes     int64
+	Uploaded      int   `json:"uploaded"`
+	Skipped       int   `json:"skipped"`
+	UploadedBytes int64 `json:"uploaded_bytes"`
 	// Pointers are the pointers as moved, in the order given.
-	Pointers []Pointer
+	Pointers []Pointer `json:"pointers"`
 }
 
 // Ref names what Pull fetches: a version by id, else the version a pointer
@@ -121,6 +128,9 @@ type backend interface {
 	// pointerNames lists the names that may be pointers; Store.pointers
 	// reads each (a name that is not a valid pointer name is skipped).
 	pointerNames(ctx context.Context) ([]string, error)
+	// exists returns ErrNoStore when the store is not there (a folder
+	// store is checked before it is opened, as opening creates it).
+	exists(ctx context.Context) error
 	close() error
 }
 
@@ -163,6 +173,37 @@ func Open(ctx context.Context, loc string) (*Store, error) {
 		return nil, red.wrap(fmt.Errorf("opening store %s: %w", s.display, err))
 	}
 	return s, nil
+}
+
+// OpenExisting is Open for a store that must be there already: it returns
+// an error that wraps ErrNoStore, and creates nothing, when the folder, the
+// S3 bucket or the registry repository does not exist. Commands that read
+// a store (list, pull, prune) use it, so that a mistyped location is not
+// taken for an empty store.
+func OpenExisting(ctx context.Context, loc string) (*Store, error) {
+	if dir, ok := folderPath(loc); ok {
+		if _, err := os.Stat(dir); errors.Is(err, fs.ErrNotExist) {
+			return nil, fmt.Errorf("opening store %s: %w", loc, ErrNoStore)
+		}
+	}
+	s, err := Open(ctx, loc)
+	if err != nil {
+		return nil, err
+	}
+	if err := s.b.exists(ctx); err != nil {
+		s.Close()
+		return nil, s.red.wrap(fmt.Errorf("opening store %s: %w", s.display, err))
+	}
+	return s, nil
+}
+
+// folderPath returns the folder of a folder store's location.
+func folderPath(loc string) (string, bool) {
+	if strings.HasPrefix(loc, "file://") {
+		u, err := url.Parse(loc)
+		return u.Path, err == nil && u.Path != ""
+	}
+	return loc, loc != "" && !strings.Contains(loc, "://")
 }
 
 // String returns the store's location with credentials redacted.

@@ -435,3 +435,57 @@ func TestPublishRefusesBadBundle(t *testing.T) {
 		t.Fatalf("publish of a changed bundle: %v", err)
 	}
 }
+
+// TestOpenExisting tells a store that is not there from one with no
+// versions yet, on every kind of store, and creates nothing while it looks.
+func TestOpenExisting(t *testing.T) {
+	ctx := context.Background()
+	for _, k := range kinds {
+		t.Run(k.name, func(t *testing.T) {
+			loc := k.loc(t)
+			missing := loc
+			switch k.name {
+			case "s3": // a bucket nobody made, beside the one s3Shared made
+				b, rest, _ := strings.Cut(strings.TrimPrefix(loc, "s3://"), "/")
+				missing = "s3://" + b + "-none/" + rest
+			case "folder", "file-url":
+				defer func() {
+					if _, err := os.Stat(strings.TrimPrefix(loc, "file://")); !errors.Is(err, os.ErrNotExist) {
+						t.Errorf("OpenExisting made the folder %s", loc)
+					}
+				}()
+			}
+			if s, err := OpenExisting(ctx, missing); !errors.Is(err, ErrNoStore) {
+				if s != nil {
+					s.Close()
+				}
+				t.Fatalf("OpenExisting(missing store) = %v, want ErrNoStore", err)
+			}
+			if k.name == "oci" {
+				// A registry repository exists once something is pushed.
+				s := mustOpen(t, loc)
+				v1, _ := mkBundle(t, 1, 3)
+				if _, err := s.Publish(ctx, v1, PublishOptions{}); err != nil {
+					t.Fatal(err)
+				}
+			} else if k.name != "s3" {
+				return // the deferred check wants the folder left unmade
+			}
+			s, err := OpenExisting(ctx, loc)
+			if err != nil {
+				t.Fatalf("OpenExisting(existing store): %v", err)
+			}
+			s.Close()
+		})
+	}
+	// An empty folder is a store with no versions yet.
+	dir := t.TempDir()
+	s, err := OpenExisting(ctx, dir)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer s.Close()
+	if vs, err := s.Versions(ctx); err != nil || len(vs) != 0 {
+		t.Errorf("Versions of an empty folder = %v, %v", vs, err)
+	}
+}

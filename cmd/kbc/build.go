@@ -54,16 +54,18 @@ type sourceFlags struct {
 func addSourceFlags(fs *flag.FlagSet) *sourceFlags {
 	def := build.DefaultOptions()
 	sf := &sourceFlags{fs: fs}
-	fs.Var(&sf.include, "include", "only read files matching this glob (repeatable; \"**\" spans folders)")
-	fs.Var(&sf.exclude, "exclude", "skip files and folders matching this glob (repeatable)")
-	fs.StringVar(&sf.maxSize, "max-file-size", "10MB", "skip files larger than this (B, kB, MB)")
-	fs.IntVar(&sf.aim, "aim-tokens", def.Settings.AimTokens, "passage size to aim for, in tokens")
-	fs.IntVar(&sf.maxTok, "max-tokens", def.Settings.MaxTokens, "largest passage, in tokens")
+	fs.Var(&sf.include, "include", "only read files matching this `GLOB` (repeatable; \"**\" spans folders)")
+	fs.Var(&sf.exclude, "exclude", "skip files and folders matching this `GLOB` (repeatable)")
+	fs.StringVar(&sf.maxSize, "max-file-size", "10MB", "skip files larger than `SIZE` (B, kB, MB)")
+	fs.IntVar(&sf.aim, "passage-tokens", def.Settings.AimTokens, "passage size to aim for, in `TOKENS`")
+	fs.IntVar(&sf.maxTok, "passage-max-tokens", def.Settings.MaxTokens, "largest passage, in `TOKENS`")
+	addDeprecated(fs, "aim-tokens", "passage-tokens")
+	addDeprecated(fs, "max-tokens", "passage-max-tokens")
 	fs.Float64Var(&sf.threshold, "dup-threshold", def.Dedupe.Threshold, "Jaccard similarity at which passages count as copies")
-	fs.StringVar(&sf.maxStale, "max-stale", "", "gate: exit 3 when more than N documents (or N% of them) are stale or expired")
-	fs.StringVar(&sf.maxUnknown, "max-unknown", "", "gate: exit 3 when more than N documents (or N% of them) have no usable date")
-	fs.BoolVar(&sf.failOnDivergent, "fail-on-divergent", false, "gate: exit 3 when copies of a passage differ in numbers, versions, dates or units")
-	fs.BoolVar(&sf.failOnSecrets, "fail-on-secrets", false, "gate: exit 3 when a credential was found in the sources (see reports/secrets.md)")
+	fs.StringVar(&sf.maxStale, "max-stale", "", "check: exit 3 when more than `N` documents (or N% of them) are stale or expired")
+	fs.StringVar(&sf.maxUnknown, "max-unknown", "", "check: exit 3 when more than `N` documents (or N% of them) have no usable date")
+	fs.BoolVar(&sf.failOnDivergent, "fail-on-divergent", false, "check: exit 3 when copies of a passage differ in numbers, versions, dates or units")
+	fs.BoolVar(&sf.failOnSecrets, "fail-on-secrets", false, "check: exit 3 when a credential was found in the sources (see reports/secrets.md)")
 	return sf
 }
 
@@ -80,17 +82,17 @@ func (sf *sourceFlags) skipOutput(src, out string) string {
 	return rel
 }
 
-// gates are the quality gates of one run.
-type gates struct {
+// checks are the checks of one run (--max-stale and the others).
+type checks struct {
 	stale, unknown     docLimit
 	divergent, secrets bool
 }
 
 // options builds the pipeline options for src: defaults, then the config
 // file at src's root, then the flags given on the command line.
-func (sf *sourceFlags) options(src string) (build.Options, gates, error) {
+func (sf *sourceFlags) options(src string) (build.Options, checks, error) {
 	opts := build.DefaultOptions()
-	var g gates
+	var g checks
 	set := map[string]bool{}
 	sf.fs.Visit(func(f *flag.Flag) { set[f.Name] = true })
 	dir, err := sources.OpenDir(src)
@@ -110,14 +112,14 @@ func (sf *sourceFlags) options(src string) (build.Options, gates, error) {
 	if set["max-file-size"] || opts.Walk.MaxSize == 0 {
 		n, err := build.ParseSize(sf.maxSize)
 		if err != nil {
-			return opts, g, fmt.Errorf("-max-file-size: %v", err)
+			return opts, g, fmt.Errorf("--max-file-size: %v", err)
 		}
 		opts.Walk.MaxSize = n
 	}
-	if set["aim-tokens"] {
+	if set["passage-tokens"] {
 		opts.Settings.AimTokens = sf.aim
 	}
-	if set["max-tokens"] {
+	if set["passage-max-tokens"] {
 		opts.Settings.MaxTokens = sf.maxTok
 	}
 	if err := opts.Settings.Validate(); err != nil {
@@ -125,7 +127,7 @@ func (sf *sourceFlags) options(src string) (build.Options, gates, error) {
 	}
 	if set["dup-threshold"] {
 		if sf.threshold <= 0 || sf.threshold > 1 {
-			return opts, g, fmt.Errorf("-dup-threshold %g is not a Jaccard similarity in (0, 1]", sf.threshold)
+			return opts, g, fmt.Errorf("--dup-threshold %g is not a Jaccard similarity in (0, 1]", sf.threshold)
 		}
 		opts.Dedupe.Threshold = sf.threshold
 	}
@@ -154,9 +156,9 @@ func (sf *sourceFlags) options(src string) (build.Options, gates, error) {
 	return opts, g, nil
 }
 
-// check runs the gates over a build's reports; it prints one line per
-// failed gate and returns exitGate, or exitOK.
-func (g gates) check(st *build.StalenessReport, divergent, secrets int, stderr io.Writer) int {
+// check runs the checks over a build's reports; it prints one line per
+// failed check and returns exitCheck, or exitOK.
+func (g checks) check(st *build.StalenessReport, divergent, secrets int, stderr io.Writer) int {
 	code := exitOK
 	for _, msg := range []string{
 		g.stale.check(st.Counts.StaleOrExpired(), st.Counts.Total),
@@ -165,8 +167,8 @@ func (g gates) check(st *build.StalenessReport, divergent, secrets int, stderr i
 		checkSecrets(g.secrets, secrets),
 	} {
 		if msg != "" {
-			fmt.Fprintf(stderr, "kbc: %s\n", msg)
-			code = exitGate
+			fmt.Fprintln(stderr, paintFor(stderr, os.Getenv).fail("kbc: "+msg))
+			code = exitCheck
 		}
 	}
 	return code
@@ -177,12 +179,12 @@ func (g gates) check(st *build.StalenessReport, divergent, secrets int, stderr i
 // or -1 to go on.
 // With a session, compile uses and updates the build cache of its bundle
 // folder (saved by writeBundle or, in watch mode, when watching stops).
-func compile(ctx context.Context, fs *flag.FlagSet, sf *sourceFlags, src string, sess *session, now time.Time, stderr io.Writer) (*build.Result, build.Options, gates, int) {
+func compile(ctx context.Context, fs *flag.FlagSet, sf *sourceFlags, src string, sess *session, now time.Time, stderr io.Writer) (*build.Result, build.Options, checks, int) {
 	if st, err := os.Stat(src); err != nil || !st.IsDir() {
 		if err == nil {
 			err = errors.New("not a folder")
 		}
-		return nil, build.Options{}, gates{}, badUsage(fs, stderr, "source %s: %v", src, unwrapPathErr(err))
+		return nil, build.Options{}, checks{}, badUsage(fs, stderr, "source %s: %v", src, unwrapPathErr(err))
 	}
 	opts, g, err := sf.options(src)
 	if err != nil {
@@ -283,7 +285,7 @@ func interrupted() (context.Context, context.CancelFunc) {
 
 func printProblems(res *build.Result, stderr io.Writer) {
 	for _, n := range res.Staleness.Notes {
-		fmt.Fprintf(stderr, "kbc: warning: %s\n", n)
+		fmt.Fprintln(stderr, paintFor(stderr, os.Getenv).warn("kbc: warning: "+n))
 	}
 	for _, p := range res.Problems {
 		fmt.Fprintln(stderr, p.Error())
@@ -311,10 +313,11 @@ func writeBundle(sess *session, src string, res *build.Result, opts build.Option
 		SourceCommit: commit,
 		SourceDirty:  dirty,
 		BuiltAt:      builtAt,
+		// The names and meanings of build --json's stats (see README, "Counts").
 		Counts: map[string]int{
 			"documents": st.Documents, "empty_documents": st.Empty, "skipped": st.Skipped,
 			"warnings": st.Warnings, "boilerplate_dropped": st.BoilerplateDropped,
-			"duplicates_removed": st.Duplicates, "divergent_copies": st.Divergent, "stale_documents": st.Stale,
+			"duplicates_removed": st.Duplicates, "divergent_copies": st.Divergent, "stale": st.Stale, "expired": st.Expired,
 			"secrets_redacted": st.Secrets, "hidden_dropped": st.Hidden, "assistant_lints": st.Lints,
 		},
 		Files:   files,
@@ -354,12 +357,15 @@ func runBuild(args []string, stdout, stderr io.Writer) int {
 			"and writes the bundle folder OUT: manifest.json, passages.jsonl, the search index\n"+
 			"and reports (staleness, duplicates, boilerplate). OUT is replaced only by a\n"+
 			"complete new bundle; a failed build leaves an earlier one untouched. Settings\n"+
-			"come from SRC/kbc.toml when present; flags override it. A failed gate exits 3\n"+
+			"come from SRC/kbc.toml when present; flags override it. A failed check exits 3\n"+
 			"after the bundle is written.",
-		"kbc build docs -o out/docs-bundle --exclude 'drafts/**' --max-stale 10%", stderr)
+		"kbc build docs -o out/docs-bundle --exclude 'drafts/**' --max-stale 10%\n"+
+			"kbc build docs -o out/docs-bundle --strict --fail-on-secrets --json", stderr)
 	out := addOutFlag(fs)
 	strict := fs.Bool("strict", false, "treat any bad input file as fatal: exit 1, write no bundle")
 	asJSON := fs.Bool("json", false, "print the summary as JSON")
+	verbose := fs.Bool("v", false, "also print the near-copy search's LSH banding in the summary")
+	fs.Var(aliasFlag{fs.Lookup("v").Value, "v"}, "verbose", "same as -v")
 	sf := addSourceFlags(fs)
 	pos, code := parseArgs(fs, args, stdout)
 	if code >= 0 {
@@ -387,7 +393,7 @@ func runBuild(args []string, stdout, stderr io.Writer) int {
 		extra := fmt.Sprintf("%s\x00%s %t\x00%s", toolKey(), sess.commit, sess.dirty, os.Getenv("SOURCE_DATE_EPOCH"))
 		if dir, err := sources.OpenDir(src); err == nil {
 			inputs, walked = build.InputsDigest(dir, opts, extra)
-			code, ok := upToDate(*out, src, dir, inputs, walked, g, *asJSON, start, stdout, stderr)
+			code, ok := upToDate(*out, src, dir, inputs, walked, g, *asJSON, *verbose, start, stdout, stderr)
 			dir.Close()
 			if ok {
 				return code
@@ -439,7 +445,7 @@ func runBuild(args []string, stdout, stderr io.Writer) int {
 		enc.SetIndent("", "  ")
 		enc.Encode(sum)
 	} else {
-		sum.print(stdout)
+		sum.print(stdout, *verbose)
 	}
 	return g.check(res.Staleness, res.Stats.Divergent, res.Stats.Secrets, stderr)
 }
@@ -447,11 +453,11 @@ func runBuild(args []string, stdout, stderr io.Writer) int {
 // upToDate reports whether the bundle in out was built from exactly these
 // inputs and still matches its manifest; if so it prints the earlier
 // build's warnings and summary (no passage added, changed or removed),
-// runs the gates on the bundle's reports judged now, and returns the exit
+// runs the checks on the bundle's reports judged now, and returns the exit
 // code. Files changed within a second of the last look are not trusted
 // by their size and time alone: their bytes must be those the last build
 // read (Stamp.Racy), or the build runs.
-func upToDate(out, src string, dir *sources.Dir, inputs string, walked []sources.File, g gates, asJSON bool, start time.Time, stdout, stderr io.Writer) (int, bool) {
+func upToDate(out, src string, dir *sources.Dir, inputs string, walked []sources.File, g checks, asJSON, verbose bool, start time.Time, stdout, stderr io.Writer) (int, bool) {
 	st := bundle.ReadStamp(out)
 	if st == nil || st.Inputs != inputs || bundle.ManifestHash(out) != st.Manifest {
 		return 0, false
@@ -490,7 +496,7 @@ func upToDate(out, src string, dir *sources.Dir, inputs string, walked []sources
 		enc.SetIndent("", "  ")
 		enc.Encode(sum)
 	} else {
-		sum.print(stdout)
+		sum.print(stdout, verbose)
 	}
 	return g.check(stale, divergent, secrets, stderr), true
 }
@@ -539,12 +545,15 @@ type summary struct {
 	Seconds          float64            `json:"seconds"`
 }
 
-func (s summary) print(w io.Writer) {
+// print writes the summary for people; verbose (-v) adds the LSH banding
+// line, which only someone tuning the duplicate search needs.
+func (s summary) print(w io.Writer, verbose bool) {
 	st := s.Stats
+	p := paintFor(w, os.Getenv)
 	if s.UpToDate {
-		fmt.Fprintf(w, "up to date: %s -> %s (no input changed; the bundle was checked and left as it was)\n", s.Source, s.Out)
+		fmt.Fprintf(w, "%s: %s -> %s (no input changed; the bundle was checked and left as it was)\n", p.strong("up to date"), s.Source, s.Out)
 	} else {
-		fmt.Fprintf(w, "built %s -> %s\n", s.Source, s.Out)
+		fmt.Fprintf(w, "%s %s -> %s\n", p.strong("built"), s.Source, s.Out)
 	}
 	fmt.Fprintf(w, "  documents    %d read, %d skipped (%s)", st.Documents, st.Skipped, sizeString(st.SourceBytes))
 	if st.Reused > 0 {
@@ -562,8 +571,10 @@ func (s summary) print(w io.Writer) {
 	if st.Divergent > 0 {
 		fmt.Fprintf(w, "; %d divergent", st.Divergent)
 	}
-	fmt.Fprintf(w, "\n  near copies  Jaccard >= %g; LSH %d bands x %d rows catches %.1f%% of pairs at %g, %.1f%% at 0.5",
-		s.Threshold, s.Bands, s.Rows, 100*s.CatchAtThreshold, s.Threshold, 100*s.CatchAtHalf)
+	if verbose {
+		fmt.Fprintf(w, "\n  near copies  Jaccard >= %g; LSH %d bands x %d rows catches %.1f%% of pairs at %g, %.1f%% at 0.5",
+			s.Threshold, s.Bands, s.Rows, 100*s.CatchAtThreshold, s.Threshold, 100*s.CatchAtHalf)
+	}
 	fmt.Fprintf(w, "\n  boilerplate  %d blocks dropped (%d distinct texts)\n", st.BoilerplateDropped, s.BoilerplateTexts)
 	c := s.Staleness
 	fmt.Fprintf(w, "  freshness    %d fresh, %d due soon, %d stale, %d expired\n", c.Fresh, c.DueSoon, c.Stale, c.Expired)

@@ -17,7 +17,8 @@ func runContext(args []string, stdout, stderr io.Writer) int {
 			"back in reading order, each block numbered and cited as path#anchor with its\n"+
 			"lines and date, and its warnings (stale, expired, undated, disputed) beside it.\n"+
 			"The text output is Markdown a prompt can include as it is.",
-		"kbc context out \"how often are reefer door seals checked\" --budget 800 --audience drivers", stderr)
+		"kbc context out \"how often are reefer door seals checked\" --budget 800 --audience drivers\n"+
+			"kbc context out \"night shift handover\" --budget 1200 --json", stderr)
 	budget := fs.Int("budget", 0, "tokens the context may take (cl100k_base), citations and warnings included")
 	lambda := fs.Float64("lambda", bundle.DefaultLambda, "weight of relevance against novelty, in (0, 1]")
 	fetch := fs.Int("fetch", 0, "search hits to choose from (default: five times what the budget holds)")

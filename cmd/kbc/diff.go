@@ -15,7 +15,8 @@ func runDiff(args []string, stdout, stderr io.Writer) int {
 		"Diff compares two bundles passage by passage and prints what was added, changed\n"+
 			"(title, heading trail or text differs) and removed from A to B: what a vector store must embed again\n"+
 			"or forget. Exit 0 whether or not they differ.",
-		"kbc diff out/yesterday out/today --json", stderr)
+		"kbc diff out/yesterday out/today\n"+
+			"kbc diff out/yesterday out/today --json", stderr)
 	asJSON := fs.Bool("json", false, "print the delta as JSON (the format of delta.json)")
 	pos, code := parseArgs(fs, args, stdout)
 	if code >= 0 {
@@ -28,7 +29,9 @@ func runDiff(args []string, stdout, stderr io.Writer) int {
 	for i, dir := range pos {
 		p, err := bundle.ReadPrior(dir)
 		if err == nil && p == nil {
-			err = fmt.Errorf("no bundle here (no manifest.json)")
+			_, err = bundle.ReadManifest(dir)
+			fmt.Fprintf(stderr, "kbc diff: %s\n", bundleProblem("diff", dir, err))
+			return exitFailure
 		}
 		if err == nil {
 			_, err = p.All()

@@ -536,7 +536,7 @@ func TestIncrementalEqualsClean(t *testing.T) {
 		t.Fatal(err)
 	}
 	check("page removed")
-	check("settings changed", "--aim-tokens", "200")
+	check("settings changed", "--passage-tokens", "200")
 	if err := os.WriteFile(filepath.Join(bundle.CacheDir(out), "entries-00.gob"), []byte("not a cache"), 0o644); err != nil {
 		t.Fatal(err)
 	}

@@ -45,7 +45,8 @@ a measure named by --min drops by more than --tolerance. Exit codes: 0 ok,
 
 func runEval(args []string, stdout, stderr io.Writer) int {
 	fs := newFlags("eval", evalSynopsis, evalAbout,
-		"kbc eval out --queries questions.tsv --qrels questions.qrels --min recall_10=0.6", stderr)
+		"kbc eval out --queries questions.tsv --qrels questions.qrels --min recall_10=0.6\n"+
+			"kbc eval out --self --json", stderr)
 	qrelsPath := fs.String("qrels", "", "TREC judgements: qid 0 docid grade")
 	runPath := fs.String("run", "", "TREC run to score: qid Q0 docid rank score tag")
 	queriesPath := fs.String("queries", "", "questions to run on BUNDLE: qid<TAB>text")
@@ -164,7 +165,7 @@ func runEval(args []string, stdout, stderr io.Writer) int {
 func evalBundle(dir string, qs []eval.Query, qrels eval.Qrels, opt bundle.EvalOptions, stderr io.Writer) (*eval.Report, eval.Run, int) {
 	b, err := bundle.Open(dir)
 	if err != nil {
-		fmt.Fprintf(stderr, "kbc eval: %v\n", err)
+		fmt.Fprintf(stderr, "kbc eval: %s\n", bundleProblem("eval", dir, err))
 		return nil, nil, exitFailure
 	}
 	defer b.Close()
@@ -261,8 +262,8 @@ func parseMins(specs []string) ([]minLimit, error) {
 	return out, nil
 }
 
-// report prints rep (and the baseline's means beside it), then checks the
-// gates: each failure is one line on stderr, and the exit code is 3.
+// report prints rep (and the baseline's means beside it), then runs the
+// checks: each failure is one line on stderr, and the exit code is 3.
 func report(stdout, stderr io.Writer, rep, old *eval.Report, asJSON, perQuery bool, limits []minLimit, compare []string, tolerance float64) int {
 	if asJSON {
 		out := struct {
@@ -285,18 +286,18 @@ func report(stdout, stderr io.Writer, rep, old *eval.Report, asJSON, perQuery bo
 	failed := false
 	for _, l := range limits {
 		if v := rep.Mean[l.measure]; v < l.value {
-			fmt.Fprintf(stderr, "gate min failed: %s is %.4f, below %.4f by %.4f\n", l.measure, v, l.value, l.value-v)
+			fmt.Fprintln(stderr, paintFor(stderr, os.Getenv).fail(fmt.Sprintf("kbc: check min failed: %s is %.4f, below %.4f by %.4f", l.measure, v, l.value, l.value-v)))
 			failed = true
 		}
 	}
 	if old != nil {
 		for _, d := range eval.Drops(old.Mean, rep.Mean, compare, tolerance) {
-			fmt.Fprintf(stderr, "gate baseline failed: %s dropped by %.4f (%.4f -> %.4f), tolerance %.4f\n", d.Measure, d.Old-d.New, d.Old, d.New, tolerance)
+			fmt.Fprintln(stderr, paintFor(stderr, os.Getenv).fail(fmt.Sprintf("kbc: check baseline failed: %s dropped by %.4f (%.4f -> %.4f), tolerance %.4f", d.Measure, d.Old-d.New, d.Old, d.New, tolerance)))
 			failed = true
 		}
 	}
 	if failed {
-		return exitGate
+		return exitCheck
 	}
 	return exitOK
 }
@@ -342,7 +343,7 @@ func printScores(w io.Writer, rep, old *eval.Report, perQuery bool) {
 func selfReport(dir string, opt bundle.EvalOptions, asJSON bool, stdout, stderr io.Writer) int {
 	b, err := bundle.Open(dir)
 	if err != nil {
-		fmt.Fprintf(stderr, "kbc eval: %v\n", err)
+		fmt.Fprintf(stderr, "kbc eval: %s\n", bundleProblem("eval", dir, err))
 		return exitFailure
 	}
 	defer b.Close()

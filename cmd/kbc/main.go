@@ -4,7 +4,7 @@
 // Usage:
 //
 //	kbc build SRC -o OUT [--strict] [--include GLOB] [--exclude GLOB]
-//	kbc watch SRC -o OUT [--debounce 150ms] [--serve 127.0.0.1:PORT]
+//	kbc watch SRC -o OUT [--debounce 150ms] [--serve 127.0.0.1:PORT] [--json]
 //	kbc query OUT "question" [-k 10] [--json] [--audience NAME]... [--exclude-stale]
 //	kbc context OUT "question" --budget TOKENS [--json] [--lambda 0.7]
 //	kbc stale SRC|OUT [--json] [--max-stale N|N%] [--fail-on-divergent]
@@ -13,15 +13,17 @@
 //	kbc eval OUT --queries QUERIES.tsv --qrels QRELS [--level section|page] [--baseline OLD]
 //	kbc eval OUT --self [--json]
 //	kbc verify OUT [--json]
-//	kbc publish OUT DEST [--tag NAME]...
-//	kbc pull SRC DIR [--tag NAME | --id ID]
+//	kbc publish OUT DEST [--tag NAME]... [--json]
+//	kbc pull SRC DIR [--tag NAME | --id ID] [--json]
 //	kbc versions STORE [--json]
-//	kbc prune STORE --keep N
+//	kbc prune STORE --keep N [--json]
 //	kbc sync OUT [DATABASE] [--schema kbc] [--wait DURATION] [--embed-cmd CMD]
-//	kbc version
+//	kbc help [COMMAND | commands | config | bundle | checks]
+//	kbc version [--json]
+//	kbc completion bash|zsh|fish
 //
 // Run "kbc COMMAND --help" for the flags of one command. Exit codes: 0 ok,
-// 1 failure, 2 bad usage, 3 a quality gate failed.
+// 1 failure, 2 bad usage, 3 a check failed.
 package main
 
 import (
@@ -29,6 +31,7 @@ import (
 	"io"
 	"os"
 	"runtime/pprof"
+	"strings"
 )
 
 // version is the tool version recorded in every bundle manifest.
@@ -78,10 +81,9 @@ func commands() []command {
 		{"versions", "list the bundles in a store", runVersions},
 		{"prune", "remove old bundles from a store", runPrune},
 		{"sync", "bring a PostgreSQL database to a bundle's passages", runSync},
-		{"version", "print the version", func(_ []string, stdout, _ io.Writer) int {
-			fmt.Fprintf(stdout, "kbc %s\n", version)
-			return exitOK
-		}},
+		{"completion", "print a shell completion script (bash, zsh, fish)", runCompletion},
+		{"help", "explain a command or a topic: commands, config, bundle, checks", runHelp},
+		{"version", "print the version, the commit and the Go version", runVersion},
 	}
 }
 
@@ -91,7 +93,7 @@ func run(args []string, stdout, stderr io.Writer) int {
 		return exitUsage
 	}
 	switch args[0] {
-	case "-h", "-help", "--help", "help":
+	case "-h", "-help", "--help":
 		usage(stdout)
 		return exitOK
 	case "-version", "--version":
@@ -102,15 +104,24 @@ func run(args []string, stdout, stderr io.Writer) int {
 			return c.run(args[1:], stdout, stderr)
 		}
 	}
-	fmt.Fprintf(stderr, "kbc: unknown command %q\n\n", args[0])
-	usage(stderr)
+	var names []string
+	for _, c := range commands() {
+		names = append(names, c.name)
+	}
+	if near := nearest(args[0], names); near != "" {
+		fmt.Fprintf(stderr, "kbc: unknown command %q (did you mean %s?)\nRun \"kbc help\" for the commands.\n", args[0], near)
+		return exitUsage
+	}
+	fmt.Fprintf(stderr, "kbc: unknown command %q\nRun \"kbc help\" for the commands.\n", args[0])
 	return exitUsage
 }
 
 func usage(w io.Writer) {
 	fmt.Fprintf(w, "kbc compiles a documentation folder into a retrieval bundle.\n\nUsage: kbc COMMAND [arguments]\n\nCommands:\n")
 	for _, c := range commands() {
-		fmt.Fprintf(w, "  %-8s %s\n", c.name, c.summary)
+		fmt.Fprintf(w, "  %-10s %s\n", c.name, c.summary)
 	}
-	fmt.Fprintf(w, "\nExample:\n  kbc build examples/handbook -o out && kbc query out \"door seal check interval\" --audience drivers\n\nRun \"kbc COMMAND --help\" for the flags of one command.\n")
+	fmt.Fprintf(w, "\nExamples:\n  kbc build examples/handbook -o out && kbc query out \"door seal check interval\" --audience drivers\n"+
+		"  kbc stale docs --max-stale 10%%\n\nRun \"kbc COMMAND --help\" for the flags of one command, \"kbc help TOPIC\" for a topic\n"+
+		"(%s).\n", strings.Join(topicNames(), ", "))
 }

@@ -42,7 +42,7 @@ func openForSearch(fs *flag.FlagSet, dir string, stderr io.Writer) (*bundle.Bund
 	}
 	b, err := bundle.Open(dir)
 	if err != nil {
-		fmt.Fprintf(stderr, "kbc %s: %v\n", fs.Name(), err)
+		fmt.Fprintf(stderr, "kbc %s: %s\n", fs.Name(), bundleProblem(fs.Name(), dir, err))
 		return nil, now, exitFailure
 	}
 	return b, now, -1
@@ -54,7 +54,8 @@ func runQuery(args []string, stdout, stderr io.Writer) int {
 			"trail, and prints the best passages, each with its freshness status now and\n"+
 			"the copies that disagree with it. Passages labelled for an audience are shown\n"+
 			"only with --audience naming it.",
-		"kbc query out \"how often are reefer door seals checked\" -k 3 --audience drivers", stderr)
+		"kbc query out \"how often are reefer door seals checked\" -k 3 --audience drivers\n"+
+			"kbc query out \"night shift handover\" --exclude-stale --json", stderr)
 	k := fs.Int("k", 10, "number of passages to return")
 	asJSON := fs.Bool("json", false, "print the results as a JSON array")
 	sf := addSearchFlags(fs)

@@ -20,8 +20,9 @@ func runStale(args []string, stdout, stderr io.Writer) int {
 			"grouped by owner, with counts per status and an age histogram. Given a source\n"+
 			"folder it reads and dates the pages (nothing is written); given a bundle it\n"+
 			"judges the dates the bundle recorded again at the current time\n"+
-			"(SOURCE_DATE_EPOCH when set). Gates exit 3 when crossed.",
-		"kbc stale docs --max-stale 5 --fail-on-divergent", stderr)
+			"(SOURCE_DATE_EPOCH when set). Checks exit 3 when crossed.",
+		"kbc stale docs --max-stale 5 --fail-on-divergent\n"+
+			"kbc stale out --json", stderr)
 	asJSON := fs.Bool("json", false, "print the report as JSON")
 	sf := addSourceFlags(fs)
 	pos, code := parseArgs(fs, args, stdout)
@@ -37,7 +38,7 @@ func runStale(args []string, stdout, stderr io.Writer) int {
 	}
 	var st *build.StalenessReport
 	var divergent, secrets int
-	var g gates
+	var g checks
 	if _, err := os.Stat(filepath.Join(pos[0], bundle.ManifestFile)); err == nil {
 		st, divergent, secrets, err = readReports(pos[0])
 		if err != nil {

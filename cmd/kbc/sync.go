@@ -23,7 +23,8 @@ func runSync(args []string, stdout, stderr io.Writer) int {
 			"input as JSON Lines (id, hash, text, title, heading), --embed-batch at a time, and CMD\n"+
 			"answers one {\"id\": ..., \"vector\": [...]} line per passage. Any failure of CMD aborts\n"+
 			"the sync.",
-		"kbc sync out postgres://kb@db.internal/assist?sslmode=verify-full --embed-cmd \"python3 embed.py\"", stderr)
+		"kbc sync out postgres://kb@db.internal/assist?sslmode=verify-full --embed-cmd \"python3 embed.py\"\n"+
+			"kbc sync out --schema kbc_staging --wait 30s --json", stderr)
 	schema := fs.String("schema", pgsync.DefaultSchema, "PostgreSQL schema `NAME` that holds the tables")
 	wait := fs.Duration("wait", 0, "wait up to `DURATION` for another sync of the schema to finish (0: fail at once)")
 	embedCmd := fs.String("embed-cmd", "", "shell `CMD` that turns passages into vectors")

@@ -12,7 +12,8 @@ func runVerify(args []string, stdout, stderr io.Writer) int {
 	fs := newFlags("verify", "verify OUT [--json]",
 		"Verify re-hashes every file of the bundle in OUT against its manifest and names\n"+
 			"each file that is missing, extra or changed. Exit 1 on any mismatch.",
-		"kbc verify out", stderr)
+		"kbc verify out\n"+
+			"kbc verify /srv/assistant/bundle --json", stderr)
 	asJSON := fs.Bool("json", false, "print the mismatches as a JSON array")
 	pos, code := parseArgs(fs, args, stdout)
 	if code >= 0 {
@@ -23,7 +24,7 @@ func runVerify(args []string, stdout, stderr io.Writer) int {
 	}
 	bad, err := bundle.Verify(pos[0])
 	if err != nil {
-		fmt.Fprintf(stderr, "kbc verify: %v\n", err)
+		fmt.Fprintf(stderr, "kbc verify: %s\n", bundleProblem("verify", pos[0], err))
 		return exitFailure
 	}
 	if *asJSON {

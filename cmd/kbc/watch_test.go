@@ -3,6 +3,7 @@ package main
 import (
 	"bytes"
 	"context"
+	"encoding/json"
 	"os"
 	"path/filepath"
 	"strings"
@@ -62,8 +63,13 @@ func TestWatchCommand(t *testing.T) {
 	go func() { done <- watchUntil(ctx, []string{src, "-o", out, "--debounce", "20ms"}, &stdout, &stderr) }()
 
 	waitFor(t, &stdout, "watching ", 1)
+	// The first build is "built", the ones after it "rebuilt".
+	if !strings.Contains(stdout.String(), " built in ") || strings.Contains(stdout.String(), "rebuilt") {
+		t.Errorf("first build: stdout:\n%s", stdout.String())
+	}
 	write(page, "# Door seals\n\nSeals are checked every 90 days by the workshop, and after any impact to the rear doors.\n")
 	waitFor(t, &stdout, "0 added, 1 changed, 0 removed", 1)
+	waitFor(t, &stdout, " rebuilt in ", 1)
 
 	// A page that breaks while being edited is named; the bundle stays.
 	write(filepath.Join(src, "bad.md"), "---\ntitle: [\n---\n# Half written\n\nText.\n")
@@ -85,5 +91,47 @@ func TestWatchCommand(t *testing.T) {
 	var o, e bytes.Buffer
 	if code := run([]string{"verify", out}, &o, &e); code != exitOK {
 		t.Errorf("verify after watch: exit %d\n%s%s", code, o.String(), e.String())
+	}
+}
+
+// TestWatchJSON: with --json, standard output holds one JSON object per
+// build and nothing else.
+func TestWatchJSON(t *testing.T) {
+	src := t.TempDir()
+	out := filepath.Join(t.TempDir(), "b")
+	page := filepath.Join(src, "ramps.md")
+	if err := os.WriteFile(page, []byte("# Ramps\n\nDock ramps are raised before a trailer leaves the bay, every time.\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	ctx, cancel := context.WithCancel(context.Background())
+	var stdout, stderr lockedBuffer
+	done := make(chan int)
+	go func() {
+		done <- watchUntil(ctx, []string{src, "-o", out, "--debounce", "20ms", "--json"}, &stdout, &stderr)
+	}()
+	waitFor(t, &stderr, "watching ", 1)
+	if err := os.WriteFile(page, []byte("# Ramps\n\nDock ramps are raised before a trailer leaves the bay, and logged.\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	waitFor(t, &stdout, `"event":"rebuilt"`, 1)
+	cancel()
+	if code := <-done; code != exitOK {
+		t.Fatalf("exit %d; stderr:\n%s", code, stderr.String())
+	}
+	lines := strings.Split(strings.TrimSpace(stdout.String()), "\n")
+	if len(lines) != 2 {
+		t.Fatalf("want 2 lines on stdout, got:\n%s", stdout.String())
+	}
+	for i, want := range []watchEvent{{Event: "built", Added: 1}, {Event: "rebuilt", Changed: 1}} {
+		var ev watchEvent
+		if err := json.Unmarshal([]byte(lines[i]), &ev); err != nil {
+			t.Fatalf("line %d: %v: %s", i+1, err, lines[i])
+		}
+		if ev.Event != want.Event || ev.Added != want.Added || ev.Changed != want.Changed || len(ev.BundleID) != 64 {
+			t.Errorf("line %d: %+v", i+1, ev)
+		}
+	}
+	if !strings.Contains(stderr.String(), "stopped; the last complete bundle is in") {
+		t.Errorf("stderr:\n%s", stderr.String())
 	}
 }

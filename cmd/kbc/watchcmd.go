@@ -2,6 +2,7 @@ package main
 
 import (
 	"context"
+	"encoding/json"
 	"errors"
 	"fmt"
 	"io"
@@ -33,13 +34,15 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 			"divergent copies. A page that does not parse while being edited is named with its\n"+
 			"path:line and the last good bundle stays. Ctrl-C stops it; the last complete\n"+
 			"bundle is left in OUT.",
-		"kbc watch docs -o /tmp/docs-bundle --debounce 300ms", stderr)
+		"kbc watch docs -o /tmp/docs-bundle --debounce 300ms\n"+
+			"kbc watch docs -o /tmp/docs-bundle --serve 127.0.0.1:8470", stderr)
 	out := addOutFlag(fs)
 	debounce := fs.Duration("debounce", watch.DefaultDebounce, "quiet period after the last change before a rebuild")
 	serve := fs.String("serve", "", "serve a live preview page on ADDR (host:port, loopback only unless --serve-any)")
 	serveAny := fs.Bool("serve-any", false, "allow --serve on an address other than loopback")
 	var audiences multiFlag
 	fs.Var(&audiences, "audience", "with --serve: an audience the preview's reader may see (repeatable); passages labelled for others are left out")
+	asJSON := fs.Bool("json", false, "print one JSON object per build on standard output (JSON Lines); other news goes to standard error")
 	sf := addSourceFlags(fs)
 	pos, code := parseArgs(fs, args, stdout)
 	if code >= 0 {
@@ -87,6 +90,10 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 	sess := &session{out: *out, watch: true}
 	defer sess.saveCache(stderr)
 	var last *build.Result
+	news := stdout // lines about watching; with --json stdout holds only the builds
+	if *asJSON {
+		news = stderr
+	}
 	var pv *preview.Server // the live preview, when serving
 	seen := map[string]bool{}
 	rebuild := func(ctx context.Context) {
@@ -113,17 +120,17 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 			fmt.Fprintf(stderr, "kbc watch: %v (the last good bundle stays)\n", err)
 			return
 		}
-		line := fmt.Sprintf("%s rebuilt in %.2fs: %d added, %d changed, %d removed; %d new warning(s); bundle %.12s",
-			time.Now().Format("15:04:05"), time.Since(start).Seconds(), len(delta.Added), len(delta.Changed), len(delta.Removed), fresh, m.BundleID)
-		if last != nil {
-			if d := res.Stats.Stale - last.Stats.Stale; d != 0 {
-				line += fmt.Sprintf("; stale %+d (now %d)", d, res.Stats.Stale)
-			}
-			if d := res.Stats.Divergent - last.Stats.Divergent; d != 0 {
-				line += fmt.Sprintf("; divergent copies %+d (now %d)", d, res.Stats.Divergent)
-			}
+		ev := watchEvent{Event: "rebuilt", Time: time.Now().UTC().Format(time.RFC3339), Seconds: time.Since(start).Seconds(),
+			Added: len(delta.Added), Changed: len(delta.Changed), Removed: len(delta.Removed), NewWarnings: fresh,
+			BundleID: m.BundleID, Stale: res.Stats.Stale, Expired: res.Stats.Expired, Divergent: res.Stats.Divergent}
+		if last == nil {
+			ev.Event = "built"
 		}
-		fmt.Fprintln(stdout, line)
+		if *asJSON {
+			json.NewEncoder(stdout).Encode(ev)
+		} else {
+			fmt.Fprintln(stdout, ev.line(last, res))
+		}
 		last = res
 		if pv != nil {
 			if err := pv.Reload(*out); err != nil {
@@ -153,9 +160,9 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 			defer cancel()
 			hs.Shutdown(sctx)
 		}()
-		fmt.Fprintf(stdout, "preview on http://%s/\n", ln.Addr())
+		fmt.Fprintf(news, "preview on http://%s/\n", ln.Addr())
 	}
-	fmt.Fprintf(stdout, "watching %s (Ctrl-C to stop)\n", src)
+	fmt.Fprintf(news, "watching %s (Ctrl-C to stop)\n", src)
 	err = w.Run(ctx, func(ctx context.Context, c watch.Change) error {
 		rebuild(ctx)
 		return nil
@@ -164,8 +171,43 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 		fmt.Fprintf(stderr, "kbc watch: %v\n", err)
 		return exitFailure
 	}
-	fmt.Fprintf(stdout, "stopped; the last complete bundle is in %s\n", *out)
+	fmt.Fprintf(news, "stopped; the last complete bundle is in %s\n", *out)
 	return exitOK
+}
+
+// watchEvent is one build of watch: what --json prints, one per line.
+type watchEvent struct {
+	Event       string  `json:"event"` // "built" for the first build, then "rebuilt"
+	Time        string  `json:"time"`
+	Seconds     float64 `json:"seconds"`
+	Added       int     `json:"added"`
+	Changed     int     `json:"changed"`
+	Removed     int     `json:"removed"`
+	NewWarnings int     `json:"new_warnings"`
+	BundleID    string  `json:"bundle_id"`
+	Stale       int     `json:"stale"`
+	Expired     int     `json:"expired"`
+	Divergent   int     `json:"divergent_copies"`
+}
+
+// line is the event as one line of text; against the last build it names
+// the changes in stale and expired pages and divergent copies.
+func (ev watchEvent) line(last, res *build.Result) string {
+	t, _ := time.Parse(time.RFC3339, ev.Time)
+	line := fmt.Sprintf("%s %s in %.2fs: %d added, %d changed, %d removed; %d new warning(s); bundle %.12s",
+		t.Local().Format("15:04:05"), ev.Event, ev.Seconds, ev.Added, ev.Changed, ev.Removed, ev.NewWarnings, ev.BundleID)
+	if last != nil {
+		if d := res.Stats.Stale - last.Stats.Stale; d != 0 {
+			line += fmt.Sprintf("; stale %+d (now %d)", d, res.Stats.Stale)
+		}
+		if d := res.Stats.Expired - last.Stats.Expired; d != 0 {
+			line += fmt.Sprintf("; expired %+d (now %d)", d, res.Stats.Expired)
+		}
+		if d := res.Stats.Divergent - last.Stats.Divergent; d != 0 {
+			line += fmt.Sprintf("; divergent copies %+d (now %d)", d, res.Stats.Divergent)
+		}
+	}
+	return line
 }
 
 // checkServeAddr checks that addr (host:port) is a loopback address, unless

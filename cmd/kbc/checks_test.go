@@ -32,11 +32,11 @@ func TestStaleLimit(t *testing.T) {
 		}
 	}
 	l, _ := parseStaleLimit("5")
-	if got, want := l.check(7, 40), "gate max-stale failed: 7 of 40 documents stale or expired (17.5%), limit 5 (over by 2)"; got != want {
+	if got, want := l.check(7, 40), "check max-stale failed: 7 of 40 documents stale or expired (17.5%), limit 5 (over by 2)"; got != want {
 		t.Errorf("got  %s\nwant %s", got, want)
 	}
 	u, _ := parseUnknownLimit("50%")
-	if got, want := u.check(30, 40), "gate max-unknown failed: 30 of 40 documents undated (75.0%), limit 50% (over by 25.0 points)"; got != want {
+	if got, want := u.check(30, 40), "check max-unknown failed: 30 of 40 documents undated (75.0%), limit 50% (over by 25.0 points)"; got != want {
 		t.Errorf("got  %s\nwant %s", got, want)
 	}
 	if _, err := parseUnknownLimit("x"); err == nil || err.Error() != `bad --max-unknown "x": want a whole number of documents or a percentage such as 10%` {
