@@ -163,7 +163,7 @@ func (b *Bundle) settings() servingSettings {
 			build.Settings
 			Freshness  fresh.Policy `json:"freshness"`
 			Duplicates struct {
-				Shingle int `json:"Shingle"`
+				Shingle int `json:"shingle"`
 			} `json:"duplicates"`
 		}
 		if len(b.manifest.Settings) > 0 {
