@@ -49,7 +49,7 @@ func TestBrowser(t *testing.T) {
 	if err := b.typeText("gangway ticket"); err != nil {
 		t.Fatal(err)
 	}
-	results := `(document.getElementById("results") || {innerText: ""}).innerText`
+	results := `(document.getElementById("main") || {innerText: ""}).innerText`
 	if _, err := b.waitFor(ctx, `location.search`, "q=gangway+ticket"); err != nil {
 		t.Fatal(err)
 	}
@@ -63,7 +63,7 @@ func TestBrowser(t *testing.T) {
 		}
 	}
 	// The script ran (the policy let it) and the event stream is open.
-	if _, err := b.waitFor(ctx, `document.getElementById("live").textContent`, "live: results refresh"); err != nil {
+	if _, err := b.waitFor(ctx, `document.getElementById("live").textContent`, "live: this page refreshes"); err != nil {
 		t.Fatal(err)
 	}
 	// A mark that a page load would wipe out.

@@ -144,7 +144,15 @@ func buildBundle(t testing.TB, src, out string) *bundle.Manifest {
 	for _, p := range res.Problems {
 		t.Logf("build warning: %v", p)
 	}
-	m, err := bundle.Write(out, &bundle.Input{Passages: res.Passages, BuiltAt: testNow, Tool: "kbc test",
+	// The reports the preview's pages read, as kbc build writes them.
+	files := map[string][]byte{}
+	for name, v := range map[string]any{bundle.StalenessJSON: res.Staleness, bundle.DuplicatesJSON: res.Duplicates} {
+		if files[name], err = bundle.MarshalReport(v); err != nil {
+			t.Fatal(err)
+		}
+	}
+	m, err := bundle.Write(out, &bundle.Input{Passages: res.Passages, BuiltAt: testNow, Tool: "kbc test", Files: files,
+		Counts:   map[string]int{"divergent_copies": res.Stats.Divergent, "stale_documents": res.Stats.Stale, "warnings": res.Stats.Warnings},
 		Settings: map[string]any{"freshness": map[string]any{"due_soon": "30d"}}})
 	if err != nil {
 		t.Fatal(err)
@@ -164,6 +172,7 @@ func newTestServer(t testing.TB) (*Server, string, string) {
 		t.Fatal(err)
 	}
 	s.now = func() time.Time { return testNow }
+	s.Source = src
 	t.Cleanup(func() { s.Close() })
 	return s, src, out
 }
