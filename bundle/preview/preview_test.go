@@ -39,7 +39,7 @@ func TestPage(t *testing.T) {
 		want, notWant              []string
 	}{
 		{name: "empty query shows the bundle", target: "/", status: 200,
-			want:    []string{`<input id="q" name="q" type="search" value=""`, "<th>bundle id</th><td><code>" + id, "<th>built at</th><td>2026-06-01T12:00:00Z", "<th>passages</th><td>8</td>", "kbc test",
+			want: []string{`<input id="q" name="q" type="search" value=""`, "<th>bundle id</th><td><code>" + id, "<th>built at</th><td>2026-06-01T12:00:00Z", "<th>passages</th><td>8</td>", "kbc test",
 				"<th>copies that disagree</th><td>0</td>", "<th>stale or expired pages</th><td>3</td>", `<a href="/stale">Staleness <span class="count">3 stale</span></a>`},
 			notWant: []string{`class="hit"`, "divergent_copies", "stale_documents"}},
 		{name: "blank query shows the bundle", target: "/?q=++", status: 200, want: []string{"<th>passages</th>"}},
