@@ -132,11 +132,11 @@ func (s *Server) staleView(h *handle) (*staleView, string) {
 			}
 		}
 		if !due.IsZero() {
-			switch days := int(now.Sub(due).Hours() / 24); {
+			switch days := daysBetween(due, now); {
 			case st == fresh.Stale || st == fresh.Expired:
-				row.When = fmt.Sprintf("%d days overdue", max(days, 0))
+				row.When = plural(max(days, 0), "day") + " overdue"
 			case st == fresh.DueSoon:
-				row.When = fmt.Sprintf("due in %d days", max(-days, 0))
+				row.When = "due in " + plural(max(-days, 0), "day")
 			}
 		}
 		v.Rows = append(v.Rows, row)
@@ -183,6 +183,23 @@ func lastTouched(in fresh.Info) time.Time {
 		t = *in.Reviewed
 	}
 	return t
+}
+
+// daysBetween counts the calendar days (UTC) from a to b; negative when b
+// is before a.
+func daysBetween(a, b time.Time) int {
+	a, b = a.UTC(), b.UTC()
+	da := time.Date(a.Year(), a.Month(), a.Day(), 0, 0, 0, 0, time.UTC)
+	db := time.Date(b.Year(), b.Month(), b.Day(), 0, 0, 0, 0, time.UTC)
+	return int(db.Sub(da).Hours() / 24)
+}
+
+// plural writes n and the noun, with an s unless n is 1.
+func plural(n int, noun string) string {
+	if n == 1 {
+		return "1 " + noun
+	}
+	return fmt.Sprintf("%d %ss", n, noun)
 }
 
 func day(t time.Time) string {
