@@ -2,10 +2,13 @@ package preview
 
 import (
 	"os"
+	"net/url"
 	"path/filepath"
 	"strings"
 	"testing"
 	"time"
+
+	"golang.org/x/net/html"
 
 	"github.com/kbc-project/kbc/sources"
 )
@@ -258,5 +261,117 @@ func TestSourceAudience(t *testing.T) {
 	body = get(t, payroll, "GET", "/results?q=night+crossings&audience=payroll", "").Body.String()
 	if !strings.Contains(body, "crew/pay.md") || strings.Contains(body, "timetable.md") {
 		t.Errorf("audience=payroll on the payroll server:\n%s", body)
+	}
+}
+
+// hostile is text that would run or inject markup if a page printed it
+// unescaped: in element content, in an attribute, in a URL.
+const hostile = `"><script>alert(1)</script><img src=x onerror=alert(2)>&amp;`
+
+// TestEscaping puts hostile text in a page's file name, title, headings,
+// owner, text and a divergent copy, in a build warning and in the query
+// and filters, and checks that no page prints any of it as markup.
+func TestEscaping(t *testing.T) {
+	dir := `q"><img src=x onerror=alert(3)>`
+	page := func(seconds string) string {
+		return "---\ntitle: '" + strings.ReplaceAll(hostile, "'", "''") + "'\nowner: '<b>" + hostile + "</b>'\nupdated: 2024-01-01\n---\n" +
+			"# " + hostile + "\n\n## Drill " + hostile + "\n\nEvery crew member fastens a lifejacket in under " + seconds + " seconds during the monthly drill " + hostile + ", and the master signs the log.\n"
+	}
+	docs := map[string]string{
+		dir + "/a.md":   page("40"),
+		dir + "/b<>.md": page("60"),
+	}
+	src := writeDocs(t, docs)
+	out := filepath.Join(t.TempDir(), "bundle")
+	buildBundle(t, src, out)
+	s, err := New(out)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer s.Close()
+	s.now = func() time.Time { return testNow }
+	s.Source = src
+	s.SetWarnings([]*sources.Error{{Path: dir + "/a.md", Line: 2, Msg: "front matter: " + hostile}})
+	id := hitID(t, s, "lifejacket")
+	q := url.QueryEscape(hostile + " lifejacket")
+	pages := []string{
+		"/?q=" + q,
+		"/results?q=" + q,
+		"/?q=" + q + "&owner=" + url.QueryEscape("<b>"+hostile+"</b>") + "&path=" + url.QueryEscape(dir) + "&status=" + url.QueryEscape(hostile) + "&k=" + url.QueryEscape(hostile),
+		"/?q=" + q + "&audience=" + url.QueryEscape(hostile),
+		"/stale", "/duplicates", "/warnings",
+		"/source?id=" + url.QueryEscape(id) + "&q=" + q,
+		"/source?id=" + url.QueryEscape(hostile) + "&q=" + q,
+	}
+	for _, target := range pages {
+		t.Run(target, func(t *testing.T) {
+			body := get(t, s, "GET", target, "").Body.String()
+			for _, p := range markupHoles(t, body) {
+				t.Errorf("%s:\n%s", p, body)
+			}
+		})
+	}
+	// The hostile text is shown, as text.
+	for target, want := range map[string]string{
+		"/stale":      "&lt;b&gt;&#34;&gt;&lt;script&gt;alert(1)&lt;/script&gt;",
+		"/duplicates": "<code>q&#34;&gt;&lt;img src=x onerror=alert(3)&gt;/a.md#",
+		"/warnings":   "<code class=\"where\">q&#34;&gt;&lt;img src=x onerror=alert(3)&gt;/a.md:2</code>",
+	} {
+		if body := get(t, s, "GET", target, "").Body.String(); !strings.Contains(body, want) {
+			t.Errorf("%s lacks %q:\n%s", target, want, body)
+		}
+	}
+}
+
+// markupHoles parses a page as a browser does (x/net/html implements the
+// WHATWG parsing algorithm) and lists what input could have put there:
+// a second script, an element the templates never write, an event
+// handler attribute, a link that leaves the preview.
+func markupHoles(t *testing.T, body string) []string {
+	t.Helper()
+	doc, err := html.Parse(strings.NewReader(body))
+	if err != nil {
+		t.Fatal(err)
+	}
+	var holes []string
+	scripts := 0
+	for n := range doc.Descendants() {
+		if n.Type != html.ElementNode {
+			continue
+		}
+		switch n.Data {
+		case "script":
+			if scripts++; scripts > 1 {
+				holes = append(holes, "a second script element")
+			}
+		case "img", "b", "iframe", "object", "embed", "base", "meta", "link":
+			if n.Data != "meta" || n.Parent == nil || n.Parent.Data != "head" {
+				holes = append(holes, "a <"+n.Data+"> element")
+			}
+		}
+		for _, a := range n.Attr {
+			if strings.HasPrefix(strings.ToLower(a.Key), "on") {
+				holes = append(holes, "attribute "+a.Key+" on <"+n.Data+">")
+			}
+			if (a.Key == "href" || a.Key == "src" || a.Key == "action") && !strings.HasPrefix(a.Val, "/") || strings.HasPrefix(a.Val, "//") {
+				holes = append(holes, "link "+a.Key+"="+a.Val+" on <"+n.Data+">")
+			}
+		}
+	}
+	return holes
+}
+
+// TestMarkupHoles checks the checker: each hole it must see, it sees.
+func TestMarkupHoles(t *testing.T) {
+	for _, page := range []string{
+		`<p><img src=x></p>`, `<script>1</script><script>2</script>`, `<p onclick="x">`,
+		`<a href="https://elsewhere.example/">`, `<a href="//elsewhere.example/">`, `<p><b>bold</b>`,
+	} {
+		if holes := markupHoles(t, page); len(holes) == 0 {
+			t.Errorf("no hole found in %s", page)
+		}
+	}
+	if holes := markupHoles(t, `<p class="x">&lt;img src=x onerror=alert(1)&gt;</p><a href="/stale">`); len(holes) != 0 {
+		t.Errorf("holes in harmless text: %q", holes)
 	}
 }
