@@ -1,8 +1,8 @@
 package preview
 
 import (
-	"os"
 	"net/url"
+	"os"
 	"path/filepath"
 	"strings"
 	"testing"
