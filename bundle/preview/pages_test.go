@@ -129,6 +129,7 @@ func hitID(t *testing.T, s *Server, query string) string {
 		t.Fatalf("no source link for %q:\n%s", query, body)
 	}
 	id, _, _ := strings.Cut(rest, "&")
+	id, _, _ = strings.Cut(id, `"`)
 	return id
 }
 

@@ -3,6 +3,7 @@ package preview
 import (
 	"errors"
 	"fmt"
+	"html/template"
 	"io"
 	"io/fs"
 	"net/http"
@@ -28,7 +29,7 @@ type sourceView struct {
 	Line, EndLine int
 	Lines         []sourceLine
 	Note          string // why nothing (or not all) is shown
-	Back          string // the search the reader came from
+	Back          template.URL // the search the reader came from
 }
 
 type sourceLine struct {
@@ -47,7 +48,14 @@ type sourceLine struct {
 func (s *Server) sourceView(h *handle, q url.Values) (*sourceView, int) {
 	v := &sourceView{ID: q.Get("id"), Query: q.Get("q")}
 	if v.Query != "" {
-		v.Back = "/?" + url.Values{"q": {v.Query}}.Encode()
+		// The search the reader came from, filters and count included.
+		back := url.Values{}
+		for _, k := range []string{"q", "k", "owner", "status", "audience", "path"} {
+			if val := q.Get(k); val != "" {
+				back.Set(k, val)
+			}
+		}
+		v.Back = template.URL("/?" + back.Encode()) // trusted: query-encoded
 	}
 	if s.Source == "" {
 		v.Note = "This preview was started without the source folder, so it cannot show source lines."
@@ -78,7 +86,7 @@ func (s *Server) sourceView(h *handle, q url.Values) (*sourceView, int) {
 		return v, http.StatusOK
 	}
 	text = maskComments(redactKeepLines(text))
-	lines := strings.Split(text, "\n")
+	lines := strings.Split(strings.TrimSuffix(text, "\n"), "\n")
 	first := max(p.Line-sourceContext, 1)
 	last := min(p.EndLine+sourceContext, len(lines), first+sourceMaxLines-1)
 	if p.Line > len(lines) {

@@ -152,7 +152,12 @@ func (s *Server) view(h *handle, ws []warningView, kind string, q url.Values) (*
 	case kindSource:
 		v.Title = "Source"
 		v.Source, status = s.sourceView(h, q)
-		v.Part = "/source?" + url.Values{"id": {q.Get("id")}, "q": {q.Get("q")}, "part": {"main"}}.Encode()
+		p := url.Values{"part": {"main"}}
+		for k, vs := range q {
+			p[k] = vs
+		}
+		p.Set("part", "main")
+		v.Part = "/source?" + p.Encode()
 	}
 	if v.Error != "" && status == http.StatusOK {
 		status = http.StatusInternalServerError
@@ -271,6 +276,12 @@ func (s *Server) searchView(h *handle, q url.Values) *searchView {
 	sv.Hits = make([]hitView, len(hits))
 	for i := range hits {
 		sv.Hits[i] = newHitView(i+1, &hits[i], sv.Query, now, h.dueSoon)
+		p := url.Values{"id": {hits[i].ID}}
+		for k, v := range sv.Params {
+			p[k] = v
+		}
+		// Trusted: every part is query-encoded by url.Values.
+		sv.Hits[i].Source = template.URL("/source?" + p.Encode())
 	}
 	return sv
 }
@@ -313,6 +324,7 @@ func (s *Server) query(h *handle, query string, k int, f filter, now time.Time) 
 type hitView struct {
 	Rank          int
 	ID            string
+	Source        template.URL // the source view of the hit, keeping the search to go back to
 	Score         string
 	Title         []segment
 	Trail         [][]segment // the headings under the title
