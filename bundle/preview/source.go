@@ -28,7 +28,7 @@ type sourceView struct {
 	Query         string
 	Line, EndLine int
 	Lines         []sourceLine
-	Note          string // why nothing (or not all) is shown
+	Note          string       // why nothing (or not all) is shown
 	Back          template.URL // the search the reader came from
 }
 
