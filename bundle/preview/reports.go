@@ -216,7 +216,10 @@ type duplicatesView struct {
 	Divergent []divergentView
 	Clusters  []clusterView
 	Removed   int
+	Passages  int // passages compared
 	Hidden    int // pairs or clusters left out for their audience
+	// MoreDivergent and MoreClusters count those past the page's bounds.
+	MoreDivergent, MoreClusters int
 }
 
 type divergentView struct {
@@ -242,15 +245,39 @@ type clusterView struct {
 	Copies    []string // path#anchor (Jaccard)
 }
 
+// The most divergent pairs and clusters the duplicates page lists: a
+// large site has thousands of clusters, which no one reads on one page
+// (the report files list them all).
+const (
+	maxDivergentShown = 300
+	maxClustersShown  = 500
+)
+
+// duplicates returns the bundle's duplicate report, read once; nil when
+// it has none.
+func (h *handle) duplicates() (*build.DuplicateReport, error) {
+	h.dupOnce.Do(func() {
+		var r build.DuplicateReport
+		found, err := h.readReport(bundle.DuplicatesJSON, &r)
+		if found && err == nil {
+			h.dup = &r
+		}
+		h.dupErr = err
+	})
+	return h.dup, h.dupErr
+}
+
 // duplicatesView reads the duplicate report. A pair or cluster is shown
 // only when every passage of it that is in the bundle may be shown.
 func (s *Server) duplicatesView(h *handle) (*duplicatesView, string) {
-	var r build.DuplicateReport
-	found, err := h.readReport(bundle.DuplicatesJSON, &r)
+	r, err := h.duplicates()
 	if err != nil {
 		return nil, err.Error()
 	}
-	v := &duplicatesView{Found: found, Removed: r.Removed}
+	if r == nil {
+		return &duplicatesView{}, ""
+	}
+	v := &duplicatesView{Found: true, Removed: r.Removed, Passages: r.Passages}
 	side := func(l build.Location) (sideView, bool) {
 		sv := sideView{ID: l.ID, Ref: l.Ref(), Line: l.Line, EndLine: l.EndLine}
 		p, err := h.b.Passage(l.ID)
@@ -264,6 +291,10 @@ func (s *Server) duplicatesView(h *handle) (*duplicatesView, string) {
 		return sv, true
 	}
 	for _, d := range r.Divergent {
+		if len(v.Divergent) == maxDivergentShown {
+			v.MoreDivergent = len(r.Divergent) - maxDivergentShown
+			break
+		}
 		a, okA := side(d.Canonical)
 		b, okB := side(d.Copy)
 		if !okA || !okB {
@@ -277,6 +308,10 @@ func (s *Server) duplicatesView(h *handle) (*duplicatesView, string) {
 		v.Divergent = append(v.Divergent, dv)
 	}
 	for _, c := range r.Clusters {
+		if len(v.Clusters) == maxClustersShown {
+			v.MoreClusters = len(r.Clusters) - maxClustersShown
+			break
+		}
 		canon, ok := side(c.Canonical)
 		if !ok {
 			v.Hidden++

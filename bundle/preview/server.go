@@ -107,6 +107,9 @@ type handle struct {
 	staleOnce sync.Once // reads the staleness report on first use
 	stale     *build.StalenessReport
 	staleErr  error
+	dupOnce   sync.Once // reads the duplicate report on first use
+	dup       *build.DuplicateReport
+	dupErr    error
 }
 
 // New opens the bundle in dir (see bundle.Open) and returns a Server for
