@@ -2,15 +2,18 @@ package preview
 
 import (
 	"context"
+	"fmt"
 	"net/http/httptest"
 	"os"
 	"path/filepath"
 	"strconv"
 	"strings"
 	"sync"
+	"sync/atomic"
 	"testing"
 	"time"
 
+	cdppage "github.com/chromedp/cdproto/page"
 	"github.com/chromedp/chromedp"
 
 	"github.com/kbc-project/kbc/build"
@@ -217,5 +220,58 @@ func write(t *testing.T, dir, name, text string) {
 	t.Helper()
 	if err := os.WriteFile(filepath.Join(dir, name), []byte(text), 0o644); err != nil {
 		t.Fatal(err)
+	}
+}
+
+// TestBrowserEscaping loads every kind of page of a bundle whose names
+// and text are hostile into Chromium and reads the DOM the browser built:
+// no element of the input's markup, one script (ours), no dialog opened,
+// and the hostile text on screen as text. A screenshot of each is kept.
+func TestBrowserEscaping(t *testing.T) {
+	ctx := browsertest.New(t)
+	s, pages := hostileServer(t)
+	ts := httptest.NewServer(s.Handler())
+	t.Cleanup(func() { s.Close(); ts.Close() })
+	shots := os.Getenv("KBC_PREVIEW_SCREENSHOTS")
+	if shots == "" {
+		shots = t.TempDir()
+	}
+	// A dialog (alert) would block the page; any opened is counted.
+	var dialogs atomic.Int64
+	if err := chromedp.Listen(ctx, func(ev any) {
+		if _, ok := ev.(*cdppage.EventJavascriptDialogOpening); ok {
+			dialogs.Add(1)
+		}
+	}); err != nil {
+		t.Fatal(err)
+	}
+	for i, p := range pages {
+		if err := chromedp.Do(ctx, chromedp.Navigate(ts.URL+p)); err != nil {
+			t.Fatalf("%s: %v", p, err)
+		}
+		got, err := chromedp.Run(ctx, chromedp.Evaluate[string](`JSON.stringify({
+			foreign: document.querySelectorAll("img, b, iframe, object, embed, base").length,
+			scripts: document.scripts.length,
+			handlers: Array.from(document.querySelectorAll("*")).filter(e => Array.from(e.attributes).some(a => a.name.startsWith("on"))).length,
+			text: document.body.innerText.includes("<script>alert(1)</script>") || document.body.innerText.includes("<img src=x onerror=alert(3)>"),
+		})`))
+		if err != nil {
+			t.Fatalf("%s: %v", p, err)
+		}
+		// /results is a fragment, without our script; the source view of an
+		// unknown id shows no passage's text (and does not echo the id).
+		want := `{"foreign":0,"scripts":1,"handlers":0,"text":true}`
+		if strings.HasPrefix(p, "/results") {
+			want = `{"foreign":0,"scripts":0,"handlers":0,"text":true}`
+		} else if strings.HasPrefix(p, "/source?id=%22") {
+			want = `{"foreign":0,"scripts":1,"handlers":0,"text":false}`
+		}
+		if got != want {
+			t.Errorf("%s: %s", p, got)
+		}
+		browsertest.Screenshot(t, ctx, shots, fmt.Sprintf("hostile-%d.png", i))
+	}
+	if n := dialogs.Load(); n > 0 {
+		t.Errorf("%d dialogs opened", n)
 	}
 }

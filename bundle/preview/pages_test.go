@@ -269,18 +269,22 @@ func TestSourceAudience(t *testing.T) {
 // unescaped: in element content, in an attribute, in a URL.
 const hostile = `"><script>alert(1)</script><img src=x onerror=alert(2)>&amp;`
 
-// TestEscaping puts hostile text in a page's file name, title, headings,
-// owner, text and a divergent copy, in a build warning and in the query
-// and filters, and checks that no page prints any of it as markup.
-func TestEscaping(t *testing.T) {
-	dir := `q"><img src=x onerror=alert(3)>`
+// hostileDir is a folder name that is markup.
+const hostileDir = `q"><img src=x onerror=alert(3)>`
+
+// hostileServer serves a bundle whose file names, titles, owners,
+// headings and text are hostile, with a hostile build warning, and
+// returns it with a page of each kind to load (hostile query and filters
+// included).
+func hostileServer(t *testing.T) (*Server, []string) {
+	t.Helper()
 	page := func(seconds string) string {
 		return "---\ntitle: '" + strings.ReplaceAll(hostile, "'", "''") + "'\nowner: '<b>" + hostile + "</b>'\nupdated: 2024-01-01\n---\n" +
 			"# " + hostile + "\n\n## Drill " + hostile + "\n\nEvery crew member fastens a lifejacket in under " + seconds + " seconds during the monthly drill " + hostile + ", and the master signs the log.\n"
 	}
 	docs := map[string]string{
-		dir + "/a.md":   page("40"),
-		dir + "/b<>.md": page("60"),
+		hostileDir + "/a.md":   page("40"),
+		hostileDir + "/b<>.md": page("60"),
 	}
 	src := writeDocs(t, docs)
 	out := filepath.Join(t.TempDir(), "bundle")
@@ -289,21 +293,28 @@ func TestEscaping(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	defer s.Close()
+	t.Cleanup(func() { s.Close() })
 	s.now = func() time.Time { return testNow }
 	s.Source = src
-	s.SetWarnings([]*sources.Error{{Path: dir + "/a.md", Line: 2, Msg: "front matter: " + hostile}})
+	s.SetWarnings([]*sources.Error{{Path: hostileDir + "/a.md", Line: 2, Msg: "front matter: " + hostile}})
 	id := hitID(t, s, "lifejacket")
 	q := url.QueryEscape(hostile + " lifejacket")
-	pages := []string{
+	return s, []string{
 		"/?q=" + q,
 		"/results?q=" + q,
-		"/?q=" + q + "&owner=" + url.QueryEscape("<b>"+hostile+"</b>") + "&path=" + url.QueryEscape(dir) + "&status=" + url.QueryEscape(hostile) + "&k=" + url.QueryEscape(hostile),
+		"/?q=" + q + "&owner=" + url.QueryEscape("<b>"+hostile+"</b>") + "&path=" + url.QueryEscape(hostileDir) + "&status=" + url.QueryEscape(hostile) + "&k=" + url.QueryEscape(hostile),
 		"/?q=" + q + "&audience=" + url.QueryEscape(hostile),
 		"/stale", "/duplicates", "/warnings",
 		"/source?id=" + url.QueryEscape(id) + "&q=" + q,
 		"/source?id=" + url.QueryEscape(hostile) + "&q=" + q,
 	}
+}
+
+// TestEscaping puts hostile text in a page's file name, title, headings,
+// owner, text and a divergent copy, in a build warning and in the query
+// and filters, and checks that no page prints any of it as markup.
+func TestEscaping(t *testing.T) {
+	s, pages := hostileServer(t)
 	for _, target := range pages {
 		t.Run(target, func(t *testing.T) {
 			body := get(t, s, "GET", target, "").Body.String()
