@@ -5,6 +5,7 @@ import (
 	"reflect"
 	"strings"
 	"testing"
+	"unicode/utf8"
 )
 
 func TestMatchSpans(t *testing.T) {
@@ -60,4 +61,27 @@ func TestMatchSpansAgreeWithSearch(t *testing.T) {
 			}
 		}
 	}
+}
+
+// FuzzMatchSpans checks the spans' invariants on any text and query: in
+// order, apart, inside the text, on rune boundaries, never empty.
+func FuzzMatchSpans(f *testing.F) {
+	f.Add("Night crossings leave the north pier.", "crossing")
+	f.Add("Call os.path.join, Foo::bar or HTTPServer.", "path bar server")
+	f.Add("Kombüse\u00a0und Kombüsen", "kombüse")
+	f.Add("a\xffb crossing", "crossing \xff")
+	f.Fuzz(func(t *testing.T, text, query string) {
+		prev := -1
+		for _, s := range MatchSpans(text, query) {
+			if s.Start <= prev || s.End <= s.Start || s.End > len(text) {
+				t.Fatalf("span %v after %d in %q", s, prev, text)
+			}
+			// Passages are valid UTF-8 (the build repairs it); in other
+			// text a stray byte is no rune to cut.
+			if utf8.ValidString(text) && (!utf8.RuneStart(text[s.Start]) || s.End < len(text) && !utf8.RuneStart(text[s.End])) {
+				t.Fatalf("span %v cuts a rune in %q", s, text)
+			}
+			prev = s.End
+		}
+	})
 }
