@@ -6,6 +6,7 @@ import (
 	"crypto/sha256"
 	_ "embed"
 	"encoding/base64"
+	"encoding/hex"
 	"encoding/json"
 	"errors"
 	"fmt"
@@ -227,9 +228,10 @@ func (s *Server) Reload(dir string) error {
 		return ErrClosed
 	}
 	s.cur = h
+	state := stateID(h.b.Manifest().BundleID, s.warnings)
 	s.mu.Unlock()
 	err = old.retire()
-	s.notify(h.b.Manifest().BundleID)
+	s.notify(state)
 	if err != nil {
 		return fmt.Errorf("preview: closing the previous bundle: %w", err)
 	}
@@ -352,19 +354,20 @@ func (s *Server) render(w http.ResponseWriter, r *http.Request, kind string) {
 }
 
 // serveEvents streams Server-Sent Events (WHATWG HTML Living Standard,
-// section 9.2): an "id:" line with the bundle id and "event: reload" after
-// each rebuild. A client that names an older bundle, by ?bundle= on its
+// section 9.2): an "id:" line with the state id (stateID: the bundle id,
+// and a digest of the warnings when there are some) and "event: reload"
+// after each rebuild. A client that names an older state, by ?bundle= on its
 // first connection or by the Last-Event-ID header the EventSource sends
 // when it reconnects, gets a reload at once, so a rebuild that happened
 // while it was not connected is not missed.
 func (s *Server) serveEvents(w http.ResponseWriter, r *http.Request) {
-	h, _ := s.acquire()
+	h, ws := s.acquire()
 	if h == nil {
 		// Any status but 200 makes an EventSource stop reconnecting.
 		http.Error(w, "preview: server closed", http.StatusServiceUnavailable)
 		return
 	}
-	id := h.b.Manifest().BundleID
+	id := stateID(h.b.Manifest().BundleID, ws)
 	h.users.Done()
 	defer s.streams.Add(-1)
 	if n := s.streams.Add(1); n > int64(cmp.Or(s.MaxStreams, DefaultMaxStreams)) {
@@ -412,8 +415,23 @@ func (s *Server) serveEvents(w http.ResponseWriter, r *http.Request) {
 	}
 }
 
-// event is a reload event for bundle id. A bundle id is hex, so it cannot
-// break the line format.
+// stateID names what the pages show: the bundle id, and when the build
+// had warnings a digest of them after a "-", so that a page that missed a
+// rebuild which changed only the warnings still reloads when it comes
+// back (see serveEvents).
+func stateID(bundleID string, ws []warningView) string {
+	if len(ws) == 0 {
+		return bundleID
+	}
+	sum := sha256.New()
+	for _, w := range ws {
+		fmt.Fprintf(sum, "%s\x00%s\n", w.Where, w.Msg)
+	}
+	return bundleID + "-" + hex.EncodeToString(sum.Sum(nil))[:16]
+}
+
+// event is a reload event for state id. A state id is hex and "-", so it
+// cannot break the line format.
 func event(id string) string {
 	return "id: " + id + "\nevent: reload\ndata: " + id + "\n\n"
 }

@@ -38,6 +38,7 @@ var routes = map[string]string{
 // page is what the templates render.
 type page struct {
 	Kind   string
+	State  string // stateID of what the page shows
 	Title  string // of the browser tab
 	Part   string // the URL of this page's main part, fetched after a rebuild
 	Bundle bundleView
@@ -108,6 +109,7 @@ func (s *Server) view(h *handle, ws []warningView, kind string, q url.Values) (*
 	m := h.b.Manifest()
 	v := &page{
 		Kind:   kind,
+		State:  stateID(m.BundleID, ws),
 		CSS:    template.CSS(pageCSS),
 		Script: template.JS(pageJS),
 		Bundle: bundleView{
