@@ -420,3 +420,25 @@ func TestMarkupHoles(t *testing.T) {
 		t.Errorf("holes in harmless text: %q", holes)
 	}
 }
+
+// TestStaleReviewed: a page reviewed after its last update shows the
+// review date, and is judged from it.
+func TestStaleReviewed(t *testing.T) {
+	docs := map[string]string{
+		"pier.md": "---\ntitle: Pier lights\nowner: harbour-master\nupdated: 2024-01-01\nreviewed: 2026-03-01\n---\n# Pier lights\n\nThe pier lights are tested every Monday at dusk.\n",
+	}
+	out := filepath.Join(t.TempDir(), "bundle")
+	buildBundle(t, writeDocs(t, docs), out)
+	s, err := New(out)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer s.Close()
+	s.now = func() time.Time { return testNow }
+	body := get(t, s, "GET", "/stale", "").Body.String()
+	for _, want := range []string{"<small>reviewed 2026-03-01</small>", `<span class="status st-fresh">fresh</span></td><td>harbour-master</td>`} {
+		if !strings.Contains(body, want) {
+			t.Errorf("staleness page lacks %q:\n%s", want, body)
+		}
+	}
+}

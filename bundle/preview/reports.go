@@ -92,6 +92,7 @@ type staleRow struct {
 	Title       string
 	Path        string
 	Updated     string
+	Reviewed    string
 	From        string // where the updated date came from
 	ReviewBy    string
 	Expires     string
@@ -123,6 +124,9 @@ func (s *Server) staleView(h *handle) (*staleView, string) {
 			Updated: day(d.Updated), From: d.UpdatedSource, ReviewBy: day(d.ReviewBy)}
 		if d.SetAside != "" {
 			row.From = "set aside: " + d.SetAside
+		}
+		if d.Reviewed != nil {
+			row.Reviewed = day(*d.Reviewed)
 		}
 		due := d.ReviewBy
 		if d.Expires != nil {

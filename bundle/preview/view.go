@@ -93,6 +93,17 @@ var countLabels = map[string]string{
 	"secrets_redacted":    "secrets removed",
 	"hidden_dropped":      "hidden text dropped",
 	"assistant_lints":     "text addressed to an assistant",
+	// The names build --json gives the same counts.
+	"files":          "files found",
+	"empty":          "pages with no text",
+	"duplicates":     "copies folded into one passage",
+	"divergent":      "copies that disagree",
+	"stale":          "stale or expired pages",
+	"secrets":        "secrets removed",
+	"hidden":         "hidden text dropped",
+	"lints":          "text addressed to an assistant",
+	"split_passages": "passages cut from a long block",
+	"source_bytes":   "bytes read",
 }
 
 // label returns the human name of a count key.
@@ -101,6 +112,27 @@ func label(key string) string {
 		return l
 	}
 	return strings.ReplaceAll(key, "_", " ")
+}
+
+// navView counts what the links name, from the reports (so the counts
+// agree with the pages they lead to): stale or expired pages judged now,
+// divergent pairs, warnings.
+func (s *Server) navView(h *handle, warnings int) navView {
+	n := navView{Warnings: warnings, HasSource: s.Source != ""}
+	if r, _ := h.staleness(); r != nil {
+		now := s.now()
+		for _, d := range r.Documents {
+			if bundle.Visible(d.Audience, s.audiences) {
+				if st := d.Info.StatusAt(now, h.dueSoon); st == fresh.Stale || st == fresh.Expired {
+					n.Stale++
+				}
+			}
+		}
+	}
+	if r, _ := h.duplicates(); r != nil {
+		n.Divergent = len(r.Divergent)
+	}
+	return n
 }
 
 // view gathers what the page of kind shows for the request's query
@@ -120,7 +152,7 @@ func (s *Server) view(h *handle, ws []warningView, kind string, q url.Values) (*
 			SourceDirty:  m.SourceDirty,
 			Passages:     m.Counts["passages"],
 		},
-		Nav: navView{Stale: m.Counts["stale_documents"], Divergent: m.Counts["divergent_copies"], Warnings: len(ws), HasSource: s.Source != ""},
+		Nav: s.navView(h, len(ws)),
 	}
 	for k, n := range m.Counts {
 		v.Bundle.Counts = append(v.Bundle.Counts, countView{label(k), n})
