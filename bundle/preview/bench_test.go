@@ -29,7 +29,11 @@ func BenchmarkPage(b *testing.B) {
 	s, _, _ := newTestServer(b)
 	run := func(b *testing.B, s *Server, q string) {
 		h := s.Handler()
-		target := "/?q=" + url.QueryEscape(q)
+		query, filters, _ := strings.Cut(q, "&")
+		target := "/?q=" + url.QueryEscape(query)
+		if filters != "" {
+			target += "&" + filters
+		}
 		var n int
 		for b.Loop() {
 			r := httptest.NewRequest("GET", target, nil)
@@ -58,6 +62,8 @@ func BenchmarkPage(b *testing.B) {
 	for _, q := range benchQueries {
 		b.Run("python/"+q.name, func(b *testing.B) { run(b, ps, q.python) })
 	}
+	// A filter that few hits pass makes the search look deeper.
+	b.Run("python/filtered", func(b *testing.B) { run(b, ps, "asyncio event loop&path=c-api/") })
 }
 
 // BenchmarkReload measures Reload: opening a bundle and swapping it in.
