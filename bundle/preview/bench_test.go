@@ -6,6 +6,7 @@ import (
 	"net/url"
 	"os"
 	"path/filepath"
+	"strings"
 	"testing"
 
 	"github.com/kbc-project/kbc/build"
@@ -28,7 +29,11 @@ func BenchmarkPage(b *testing.B) {
 	s, _, _ := newTestServer(b)
 	run := func(b *testing.B, s *Server, q string) {
 		h := s.Handler()
-		target := "/?q=" + url.QueryEscape(q)
+		query, filters, _ := strings.Cut(q, "&")
+		target := "/?q=" + url.QueryEscape(query)
+		if filters != "" {
+			target += "&" + filters
+		}
 		var n int
 		for b.Loop() {
 			r := httptest.NewRequest("GET", target, nil)
@@ -57,6 +62,8 @@ func BenchmarkPage(b *testing.B) {
 	for _, q := range benchQueries {
 		b.Run("python/"+q.name, func(b *testing.B) { run(b, ps, q.python) })
 	}
+	// A filter that few hits pass makes the search look deeper.
+	b.Run("python/filtered", func(b *testing.B) { run(b, ps, "asyncio event loop&path=c-api/") })
 }
 
 // BenchmarkReload measures Reload: opening a bundle and swapping it in.
@@ -103,8 +110,52 @@ func pythonBundle(b *testing.B) string {
 		b.Fatal(err)
 	}
 	out := filepath.Join(b.TempDir(), "python")
-	if _, err := bundle.Write(out, &bundle.Input{Passages: res.Passages}); err != nil {
+	if _, err := writeResult(res, out); err != nil {
 		b.Fatal(err)
 	}
 	return out
+}
+
+// BenchmarkReportPages renders the staleness, duplicates and warnings
+// pages and a source view; MB/s is HTML written. With KBC_CORPORA set it
+// also serves the python-3.11-html corpus.
+func BenchmarkReportPages(b *testing.B) {
+	run := func(b *testing.B, s *Server, target string) {
+		h := s.Handler()
+		var n int
+		for b.Loop() {
+			r := httptest.NewRequest("GET", target, nil)
+			r.Host = "127.0.0.1"
+			w := httptest.NewRecorder()
+			h.ServeHTTP(w, r)
+			if w.Code != 200 {
+				b.Fatalf("%s: status %d", target, w.Code)
+			}
+			n = w.Body.Len()
+		}
+		b.SetBytes(int64(n))
+	}
+	pages := func(b *testing.B, name string, s *Server, src, query string) {
+		hits, err := s.cur.b.Query(query, bundle.SearchOptions{K: 1})
+		if err != nil || len(hits) == 0 {
+			b.Fatalf("no hit for %q: %v", query, err)
+		}
+		s.Source = src
+		for _, p := range []string{"/stale", "/duplicates", "/warnings", "/source?id=" + url.QueryEscape(hits[0].ID) + "&q=" + url.QueryEscape(query)} {
+			path, _, _ := strings.Cut(p, "?")
+			b.Run(name+path, func(b *testing.B) { run(b, s, p) })
+		}
+	}
+	s, src, _ := newTestServer(b)
+	pages(b, "ferry", s, src, "lifejacket drill")
+	py := pythonBundle(b)
+	if py == "" {
+		return
+	}
+	ps, err := New(py)
+	if err != nil {
+		b.Fatal(err)
+	}
+	defer ps.Close()
+	pages(b, "python", ps, filepath.Join(os.Getenv("KBC_CORPORA"), "python-3.11-html"), "asyncio event loop")
 }

@@ -144,12 +144,27 @@ func buildBundle(t testing.TB, src, out string) *bundle.Manifest {
 	for _, p := range res.Problems {
 		t.Logf("build warning: %v", p)
 	}
-	m, err := bundle.Write(out, &bundle.Input{Passages: res.Passages, BuiltAt: testNow, Tool: "kbc test",
-		Settings: map[string]any{"freshness": map[string]any{"due_soon": "30d"}}})
+	m, err := writeResult(res, out)
 	if err != nil {
 		t.Fatal(err)
 	}
 	return m
+}
+
+// writeResult writes a build's passages and reports into the bundle
+// folder out, as kbc build does, built at testNow.
+func writeResult(res *build.Result, out string) (*bundle.Manifest, error) {
+	var err error
+	// The reports the preview's pages read, as kbc build writes them.
+	files := map[string][]byte{}
+	for name, v := range map[string]any{bundle.StalenessJSON: res.Staleness, bundle.DuplicatesJSON: res.Duplicates} {
+		if files[name], err = bundle.MarshalReport(v); err != nil {
+			return nil, err
+		}
+	}
+	return bundle.Write(out, &bundle.Input{Passages: res.Passages, BuiltAt: testNow, Tool: "kbc test", Files: files,
+		Counts:   map[string]int{"divergent_copies": res.Stats.Divergent, "stale_documents": res.Stats.Stale, "warnings": res.Stats.Warnings},
+		Settings: map[string]any{"freshness": map[string]any{"due_soon": "30d"}}})
 }
 
 // newTestServer builds the ferry docs into a bundle and serves it, with
@@ -164,6 +179,7 @@ func newTestServer(t testing.TB) (*Server, string, string) {
 		t.Fatal(err)
 	}
 	s.now = func() time.Time { return testNow }
+	s.Source = src
 	t.Cleanup(func() { s.Close() })
 	return s, src, out
 }

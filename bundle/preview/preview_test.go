@@ -39,13 +39,28 @@ func TestPage(t *testing.T) {
 		want, notWant              []string
 	}{
 		{name: "empty query shows the bundle", target: "/", status: 200,
-			want:    []string{`<input id="q" name="q" type="search" value=""`, "<th>bundle id</th><td><code>" + id, "<th>built at</th><td>2026-06-01T12:00:00Z", "<th>passages</th><td>8</td>", "kbc test"},
-			notWant: []string{`class="hit"`}},
+			want: []string{`<input id="q" name="q" type="search" value=""`, "<th>bundle id</th><td><code>" + id, "<th>built at</th><td>2026-06-01T12:00:00Z", "<th>passages</th><td>8</td>", "kbc test",
+				"<th>copies that disagree</th><td>0</td>", "<th>stale or expired pages</th><td>3</td>", `<a href="/stale">Staleness <span class="count">3 stale or expired</span></a>`},
+			notWant: []string{`class="hit"`, "divergent_copies", "stale_documents"}},
 		{name: "blank query shows the bundle", target: "/?q=++", status: 200, want: []string{"<th>passages</th>"}},
 		{name: "query", target: "/?q=gangway+ticket", status: 200,
 			want: []string{`value="gangway ticket"`, `<span class="rank">#1</span>`, `<code class="ref">boarding.md#ticket-checks-at-the-gangway</code>`,
-				"lines 8–11", "Boarding the harbour ferry › Boarding › Ticket checks at the gangway", "owner: terminal-ops", `st-fresh`, ">fresh<",
-				"Deckhands check every ticket at the gangway before the ramp is raised."}},
+				"lines 8–11", `<span class="title">Boarding the harbour ferry</span> › Boarding › <mark>Ticket</mark> checks at the <mark>gangway</mark>`, "owner: terminal-ops", `st-fresh`, ">fresh<",
+				"Deckhands check every <mark>ticket</mark> at the <mark>gangway</mark> before the ramp is raised.",
+				`<a class="src" href="/source?id=`}},
+		{name: "trail leaves out a heading that repeats the title", target: "/results?q=funnel", status: 200,
+			want:    []string{`<div class="trail"><span class="title">Muster stations</span></div>`},
+			notWant: []string{`› Muster stations`}},
+		{name: "filter by owner", target: "/results?q=lifejacket+drill+muster&owner=safety-desk", status: 200,
+			want: []string{"safety/muster.md"}, notWant: []string{`<code class="ref">crew/`}},
+		{name: "filter by status", target: "/results?q=crossing+night+strike&status=expired", status: 200,
+			want: []string{"notices/strike.md"}, notWant: []string{"timetable.md"}},
+		{name: "filter by path", target: "/results?q=lifejacket+drill+muster&path=safety/", status: 200,
+			want: []string{"safety/"}, notWant: []string{`<code class="ref">crew/`}},
+		{name: "filter that leaves nothing", target: "/results?q=strike&owner=planning", status: 200, want: []string{"No passage matches <q>strike</q>, owner planning"}},
+		{name: "k chosen in the form", target: "/?q=lifejacket&k=20", status: 200, want: []string{"<option selected>20</option>", `data-part="/results?k=20&amp;q=lifejacket"`}},
+		{name: "k above the bound", target: "/?q=lifejacket&k=100000", status: 200, want: []string{"<option selected>50</option>"}},
+		{name: "owner menu", target: "/", status: 200, want: []string{"<option>safety-desk</option>", "<option>terminal-ops</option>"}},
 		{name: "no hits", target: "/?q=zebra+giraffe", status: 200, want: []string{"No passage matches <q>zebra giraffe</q>"}},
 		{name: "stop words only", target: "/?q=the+of", status: 200, want: []string{"No passage matches"}},
 		{name: "due soon", target: "/results?q=night+crossing+north+pier", status: 200, want: []string{"timetable.md#night-crossings", ">due soon<", "review by 2026-06-20"}},
@@ -60,6 +75,7 @@ func TestPage(t *testing.T) {
 			notWant: []string{"<script>alert(1)"}},
 		{name: "k bounds the results", target: "/results?q=lifejacket+crossing+drill+kiosk&k=1", status: 200, want: []string{"1 passage for"}, notWant: []string{`<span class="rank">#2</span>`}},
 		{name: "results is a fragment", target: "/results?q=strike", status: 200, notWant: []string{"<html", "<script", "<form"}},
+		{name: "part=main is a fragment", target: "/stale?part=main", status: 200, want: []string{"<h1>Staleness</h1>"}, notWant: []string{"<html", "<script"}},
 		{name: "head", method: "HEAD", target: "/", status: 200},
 		{name: "unknown path", target: "/passages.jsonl", status: 404},
 		{name: "post", method: "POST", target: "/", status: 405},
@@ -201,7 +217,7 @@ func TestEvents(t *testing.T) {
 	if got, want := readEvent(t, r), "id: "+m.BundleID+"\nevent: reload\ndata: "+m.BundleID+"\n"; got != want {
 		t.Errorf("event after Reload:\n%q, want\n%q", got, want)
 	}
-	if body := get(t, s, "GET", "/results?q=strike", "").Body.String(); !strings.Contains(body, "The strike is over") {
+	if body := get(t, s, "GET", "/results?q=strike", "").Body.String(); !strings.Contains(body, "is over; crossings run every twenty minutes") {
 		t.Errorf("results after Reload do not show the edit:\n%s", body)
 	}
 

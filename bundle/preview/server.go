@@ -6,6 +6,7 @@ import (
 	"crypto/sha256"
 	_ "embed"
 	"encoding/base64"
+	"encoding/hex"
 	"encoding/json"
 	"errors"
 	"fmt"
@@ -13,14 +14,15 @@ import (
 	"io"
 	"net"
 	"net/http"
-	"strconv"
 	"strings"
 	"sync"
 	"sync/atomic"
 	"time"
 
+	"github.com/kbc-project/kbc/build"
 	"github.com/kbc-project/kbc/build/fresh"
 	"github.com/kbc-project/kbc/bundle"
+	"github.com/kbc-project/kbc/sources"
 )
 
 // ErrClosed is returned by Reload after Close.
@@ -69,6 +71,11 @@ type Server struct {
 	// more is answered 503 with Retry-After. Zero means
 	// DefaultMaxStreams. Set it before the handler serves.
 	MaxStreams int
+	// Source is the folder the bundle is built from (kbc watch's SRC).
+	// When set, a hit's source lines can be read on /source, through
+	// sources.OpenDir, so never from outside it; when empty /source
+	// answers 404. Set it before the handler serves.
+	Source string
 
 	tmpl *template.Template
 	csp  string
@@ -78,6 +85,8 @@ type Server struct {
 
 	mu  sync.RWMutex
 	cur *handle // nil after Close
+	// warnings are the last build's problems (SetWarnings), under mu.
+	warnings []warningView
 
 	subsMu sync.Mutex
 	subs   map[chan string]struct{}
@@ -95,6 +104,13 @@ type handle struct {
 	dir     string
 	dueSoon fresh.Duration
 	users   sync.WaitGroup
+
+	staleOnce sync.Once // reads the staleness report on first use
+	stale     *build.StalenessReport
+	staleErr  error
+	dupOnce   sync.Once // reads the duplicate report on first use
+	dup       *build.DuplicateReport
+	dupErr    error
 }
 
 // New opens the bundle in dir (see bundle.Open) and returns a Server for
@@ -106,7 +122,7 @@ func New(dir string, audiences ...string) (*Server, error) {
 	if err != nil {
 		return nil, err
 	}
-	tmpl, err := template.New("preview").Funcs(template.FuncMap{"join": strings.Join}).Parse(pageTemplate)
+	tmpl, err := template.New("preview").Funcs(template.FuncMap{"join": strings.Join, "label": label}).Parse(pageTemplate)
 	if err != nil {
 		h.b.Close()
 		return nil, fmt.Errorf("preview: page template: %w", err)
@@ -158,9 +174,10 @@ func dueSoonOf(m *bundle.Manifest) fresh.Duration {
 	return d
 }
 
-// acquire returns the current bundle, counted as in use until release; nil
-// after Close.
-func (s *Server) acquire() *handle {
+// acquire returns the current bundle, counted as in use until release
+// (h.users.Done), and the warnings of the build that made it; nil after
+// Close.
+func (s *Server) acquire() (*handle, []warningView) {
 	s.mu.RLock()
 	defer s.mu.RUnlock()
 	h := s.cur
@@ -170,7 +187,21 @@ func (s *Server) acquire() *handle {
 		// before retire's Wait, as sync.WaitGroup requires.
 		h.users.Add(1)
 	}
-	return h
+	return h, s.warnings
+}
+
+// SetWarnings records the problems of the build that made the bundle
+// (build.Result.Problems: path:line and what is wrong), for the warnings
+// page. It tells no page: call it before Reload, which does. A page that
+// shows warnings shows those of the last call.
+func (s *Server) SetWarnings(problems []*sources.Error) {
+	ws := make([]warningView, len(problems))
+	for i, p := range problems {
+		ws[i] = newWarningView(p)
+	}
+	s.mu.Lock()
+	s.warnings = ws
+	s.mu.Unlock()
 }
 
 // retire waits for the searches on h to finish, then closes its bundle.
@@ -197,9 +228,10 @@ func (s *Server) Reload(dir string) error {
 		return ErrClosed
 	}
 	s.cur = h
+	state := stateID(h.b.Manifest().BundleID, s.warnings)
 	s.mu.Unlock()
 	err = old.retire()
-	s.notify(h.b.Manifest().BundleID)
+	s.notify(state)
 	if err != nil {
 		return fmt.Errorf("preview: closing the previous bundle: %w", err)
 	}
@@ -258,8 +290,11 @@ func (s *Server) subscribers() int {
 // Handler returns the handler of the page, /results and /events.
 func (s *Server) Handler() http.Handler {
 	mux := http.NewServeMux()
-	mux.HandleFunc("GET /{$}", s.servePage)
-	mux.HandleFunc("GET /results", s.serveResults)
+	for path, kind := range routes {
+		mux.HandleFunc("GET "+path, func(w http.ResponseWriter, r *http.Request) { s.render(w, r, kind) })
+	}
+	// /results is the search page's results alone, as /?part=main.
+	mux.HandleFunc("GET /results", func(w http.ResponseWriter, r *http.Request) { s.render(w, r, kindResults) })
 	mux.HandleFunc("GET /events", s.serveEvents)
 	return localOnly(mux)
 }
@@ -284,28 +319,21 @@ func localOnly(next http.Handler) http.Handler {
 	})
 }
 
-func (s *Server) servePage(w http.ResponseWriter, r *http.Request) {
-	s.render(w, r, "page")
-}
-
-func (s *Server) serveResults(w http.ResponseWriter, r *http.Request) {
-	s.render(w, r, "results")
-}
-
-// render runs the search of r and executes the template name into a
-// buffer, holding the bundle only while it does.
-func (s *Server) render(w http.ResponseWriter, r *http.Request, name string) {
-	h := s.acquire()
+// render gathers the view of kind for r and executes its template into a
+// buffer, holding the bundle only while it does. With ?part=main (or for
+// kindResults) only the page's main part is written: the fragment the
+// page's script swaps in after a rebuild.
+func (s *Server) render(w http.ResponseWriter, r *http.Request, kind string) {
+	h, ws := s.acquire()
 	if h == nil {
 		http.Error(w, "preview: server closed", http.StatusServiceUnavailable)
 		return
 	}
-	q := r.URL.Query()
-	k := DefaultResults
-	if v, err := strconv.Atoi(q.Get("k")); err == nil {
-		k = min(max(v, 1), MaxResults)
+	v, status := s.view(h, ws, kind, r.URL.Query())
+	name := "page"
+	if kind == kindResults || r.URL.Query().Get("part") == "main" {
+		name = "main"
 	}
-	v := s.view(h, q.Get("q"), k)
 	var buf bytes.Buffer
 	err := s.tmpl.ExecuteTemplate(&buf, name, v)
 	h.users.Done()
@@ -319,26 +347,27 @@ func (s *Server) render(w http.ResponseWriter, r *http.Request, name string) {
 	hd.Set("X-Content-Type-Options", "nosniff")
 	hd.Set("Referrer-Policy", "no-referrer")
 	hd.Set("Cache-Control", "no-store")
-	if v.Error != "" {
-		w.WriteHeader(http.StatusInternalServerError)
+	if status != http.StatusOK {
+		w.WriteHeader(status)
 	}
 	w.Write(buf.Bytes())
 }
 
 // serveEvents streams Server-Sent Events (WHATWG HTML Living Standard,
-// section 9.2): an "id:" line with the bundle id and "event: reload" after
-// each rebuild. A client that names an older bundle, by ?bundle= on its
+// section 9.2): an "id:" line with the state id (stateID: the bundle id,
+// and a digest of the warnings when there are some) and "event: reload"
+// after each rebuild. A client that names an older state, by ?bundle= on its
 // first connection or by the Last-Event-ID header the EventSource sends
 // when it reconnects, gets a reload at once, so a rebuild that happened
 // while it was not connected is not missed.
 func (s *Server) serveEvents(w http.ResponseWriter, r *http.Request) {
-	h := s.acquire()
+	h, ws := s.acquire()
 	if h == nil {
 		// Any status but 200 makes an EventSource stop reconnecting.
 		http.Error(w, "preview: server closed", http.StatusServiceUnavailable)
 		return
 	}
-	id := h.b.Manifest().BundleID
+	id := stateID(h.b.Manifest().BundleID, ws)
 	h.users.Done()
 	defer s.streams.Add(-1)
 	if n := s.streams.Add(1); n > int64(cmp.Or(s.MaxStreams, DefaultMaxStreams)) {
@@ -386,8 +415,23 @@ func (s *Server) serveEvents(w http.ResponseWriter, r *http.Request) {
 	}
 }
 
-// event is a reload event for bundle id. A bundle id is hex, so it cannot
-// break the line format.
+// stateID names what the pages show: the bundle id, and when the build
+// had warnings a digest of them after a "-", so that a page that missed a
+// rebuild which changed only the warnings still reloads when it comes
+// back (see serveEvents).
+func stateID(bundleID string, ws []warningView) string {
+	if len(ws) == 0 {
+		return bundleID
+	}
+	sum := sha256.New()
+	for _, w := range ws {
+		fmt.Fprintf(sum, "%s\x00%s\n", w.Where, w.Msg)
+	}
+	return bundleID + "-" + hex.EncodeToString(sum.Sum(nil))[:16]
+}
+
+// event is a reload event for state id. A state id is hex and "-", so it
+// cannot break the line format.
 func event(id string) string {
 	return "id: " + id + "\nevent: reload\ndata: " + id + "\n\n"
 }

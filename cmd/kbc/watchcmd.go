@@ -133,6 +133,7 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 		}
 		last = res
 		if pv != nil {
+			pv.SetWarnings(res.Problems)
 			if err := pv.Reload(*out); err != nil {
 				fmt.Fprintf(stderr, "kbc watch: preview: %v\n", err)
 			}
@@ -143,6 +144,12 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 		if pv, err = preview.New(*out, audiences...); err != nil {
 			fmt.Fprintf(stderr, "kbc watch: %v\n", err)
 			return exitFailure
+		}
+		// The preview shows a hit's source lines from SRC, and the first
+		// build's warnings until the next one.
+		pv.Source = src
+		if last != nil {
+			pv.SetWarnings(last.Problems)
 		}
 		// Idle keep-alive connections are closed after a while, and the
 		// connections open at once are capped (beyond the event streams'
