@@ -163,7 +163,7 @@ func writeResult(res *build.Result, out string) (*bundle.Manifest, error) {
 		}
 	}
 	return bundle.Write(out, &bundle.Input{Passages: res.Passages, BuiltAt: testNow, Tool: "kbc test", Files: files,
-		Counts:   map[string]int{"divergent_copies": res.Stats.Divergent, "stale_documents": res.Stats.Stale, "warnings": res.Stats.Warnings},
+		Counts:   map[string]int{"divergent_copies": res.Stats.Divergent, "stale": res.Stats.Stale, "expired": res.Stats.Expired, "warnings": res.Stats.Warnings},
 		Settings: map[string]any{"freshness": map[string]any{"due_soon": "30d"}}})
 }
 

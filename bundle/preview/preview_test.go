@@ -40,7 +40,7 @@ func TestPage(t *testing.T) {
 	}{
 		{name: "empty query shows the bundle", target: "/", status: 200,
 			want: []string{`<input id="q" name="q" type="search" value=""`, "<th>bundle id</th><td><code>" + id, "<th>built at</th><td>2026-06-01T12:00:00Z", "<th>passages</th><td>8</td>", "kbc test",
-				"<th>copies that disagree</th><td>0</td>", "<th>stale or expired pages</th><td>3</td>", `<a href="/stale">Staleness <span class="count">3 stale or expired</span></a>`},
+				"<th>copies that disagree</th><td>0</td>", "<th>stale pages</th><td>2</td>", "<th>expired pages</th><td>1</td>", `<a href="/stale">Staleness <span class="count">3 stale or expired</span></a>`},
 			notWant: []string{`class="hit"`, "divergent_copies", "stale_documents"}},
 		{name: "blank query shows the bundle", target: "/?q=++", status: 200, want: []string{"<th>passages</th>"}},
 		{name: "query", target: "/?q=gangway+ticket", status: 200,

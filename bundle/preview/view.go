@@ -89,7 +89,7 @@ var countLabels = map[string]string{
 	"boilerplate_dropped": "repeated site text dropped",
 	"duplicates_removed":  "copies folded into one passage",
 	"divergent_copies":    "copies that disagree",
-	"stale_documents":     "stale or expired pages",
+	"stale_documents":     "stale or expired pages", // bundles built before "stale" and "expired" were counted apart
 	"secrets_redacted":    "secrets removed",
 	"hidden_dropped":      "hidden text dropped",
 	"assistant_lints":     "text addressed to an assistant",
@@ -98,7 +98,8 @@ var countLabels = map[string]string{
 	"empty":          "pages with no text",
 	"duplicates":     "copies folded into one passage",
 	"divergent":      "copies that disagree",
-	"stale":          "stale or expired pages",
+	"stale":          "stale pages",
+	"expired":        "expired pages",
 	"secrets":        "secrets removed",
 	"hidden":         "hidden text dropped",
 	"lints":          "text addressed to an assistant",
