@@ -9,6 +9,7 @@ import (
 	"time"
 
 	"github.com/kbc-project/kbc/build"
+	"github.com/kbc-project/kbc/build/fresh"
 	"github.com/kbc-project/kbc/internal/printable"
 )
 
@@ -54,7 +55,8 @@ func mdCell(s string) string {
 }
 
 // RenderStaleness writes the staleness report as Markdown: the caution,
-// counts per status, the age histogram, then documents grouped by owner,
+// counts per status, a table of owners by status (owners in the order of
+// their worst page), the age histogram, then each owner's documents,
 // worst first.
 func RenderStaleness(r *build.StalenessReport) []byte {
 	var b bytes.Buffer
@@ -67,6 +69,19 @@ func RenderStaleness(r *build.StalenessReport) []byte {
 	for _, n := range r.Notes {
 		fmt.Fprintf(&b, "> **Note.** %s.\n\n", n)
 	}
+	if len(r.Owners) > 0 {
+		fmt.Fprintf(&b, "## Owners\n\nOwners in order of their worst page: the page most overdue for review comes first.\n\n")
+		fmt.Fprintf(&b, "| owner | expired | stale | unknown | due soon | fresh | total | worst page |\n|---|---:|---:|---:|---:|---:|---:|---|\n")
+		for _, g := range r.Owners {
+			gc, w := g.Counts, g.Documents[0]
+			worst := fmt.Sprintf("%s: %s", mdCell(w.Path), w.Status)
+			if d := overdue(&w); d != "" {
+				worst += ", " + d
+			}
+			fmt.Fprintf(&b, "| %s | %d | %d | %d | %d | %d | %d | %s |\n", mdCell(ownerName(g.Owner)), gc.Expired, gc.Stale, gc.Unknown, gc.DueSoon, gc.Fresh, gc.Total, worst)
+		}
+		fmt.Fprintf(&b, "| all | %d | %d | %d | %d | %d | %d | |\n\n", c.Expired, c.Stale, c.Unknown, c.DueSoon, c.Fresh, c.Total)
+	}
 	fmt.Fprintf(&b, "## Age of documents\n\n| age | documents | |\n|---|---:|---|\n")
 	most := 1
 	for _, h := range r.Histogram {
@@ -76,21 +91,10 @@ func RenderStaleness(r *build.StalenessReport) []byte {
 		fmt.Fprintf(&b, "| %s | %d | %s |\n", h.Label, h.Documents, strings.Repeat("#", (h.Documents*30+most-1)/most))
 	}
 	for _, g := range r.Owners {
-		owner := g.Owner
-		if owner == "" {
-			owner = "(no owner)"
-		}
 		gc := g.Counts
-		fmt.Fprintf(&b, "\n## %s\n\n%d expired, %d stale, %d due soon, %d fresh, %d unknown\n\n", printable.Quote(owner), gc.Expired, gc.Stale, gc.DueSoon, gc.Fresh, gc.Unknown)
-		fmt.Fprintf(&b, "| status | document | updated | from | review by | |\n|---|---|---|---|---|---|\n")
+		fmt.Fprintf(&b, "\n## %s\n\n%d expired, %d stale, %d due soon, %d fresh, %d unknown\n\n", printable.Quote(ownerName(g.Owner)), gc.Expired, gc.Stale, gc.DueSoon, gc.Fresh, gc.Unknown)
+		fmt.Fprintf(&b, "| status | document | updated | reviewed | from | review by | |\n|---|---|---|---|---|---|---|\n")
 		for _, d := range g.Documents {
-			when := ""
-			switch {
-			case d.OverdueDays > 0:
-				when = fmt.Sprintf("%d days overdue", d.OverdueDays)
-			case d.DueInDays > 0 && d.Status != "fresh":
-				when = fmt.Sprintf("due in %d days", d.DueInDays)
-			}
 			by := day(d.ReviewBy)
 			if d.Expires != nil {
 				by += " (expires " + day(*d.Expires) + ")"
@@ -99,10 +103,39 @@ func RenderStaleness(r *build.StalenessReport) []byte {
 			if d.SetAside != "" {
 				from = "set aside: " + d.SetAside
 			}
-			fmt.Fprintf(&b, "| %s | %s (%s) | %s | %s | %s | %s |\n", d.Status, mdCell(d.Title), mdCell(d.Path), day(d.Updated), mdCell(from), by, when)
+			reviewed := "-"
+			if d.Reviewed != nil {
+				reviewed = day(*d.Reviewed)
+			}
+			fmt.Fprintf(&b, "| %s | %s (%s) | %s | %s | %s | %s | %s |\n", d.Status, mdCell(d.Title), mdCell(d.Path), day(d.Updated), reviewed, mdCell(from), by, overdue(&d))
 		}
 	}
 	return b.Bytes()
+}
+
+// ownerName is how reports name an owner; "" is "(no owner)".
+func ownerName(owner string) string {
+	if owner == "" {
+		return "(no owner)"
+	}
+	return owner
+}
+
+// overdue says how late a document is ("12 days overdue", counted from
+// the expiry date for an expired page) or how soon it is due, or "" for a
+// fresh page or one without dates.
+func overdue(d *build.DocFreshness) string {
+	switch {
+	case d.OverdueDays > 0 && d.Status == fresh.Expired:
+		return fmt.Sprintf("%d days past expiry", d.OverdueDays)
+	case d.OverdueDays > 0:
+		return fmt.Sprintf("%d days overdue", d.OverdueDays)
+	case d.DueInDays > 0 && d.Status != fresh.Fresh:
+		return fmt.Sprintf("due in %d days", d.DueInDays)
+	case d.Status == fresh.DueSoon && !d.ReviewBy.IsZero():
+		return "due today"
+	}
+	return ""
 }
 
 // RenderBoilerplate writes the boilerplate report as Markdown.
