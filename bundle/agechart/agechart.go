@@ -50,7 +50,8 @@ type Options struct {
 	// Width is the image width in pixels; below 480 gives the default.
 	Width int
 	// MaxAgeDays is the right end of the day axis; 0 fits the oldest
-	// page. Older pages are drawn at the end of the axis.
+	// page. Older pages are drawn at the end of the axis, whose label
+	// then reads "N+".
 	MaxAgeDays int
 	// ID prefixes the element ids inside the image, so that several
 	// charts can share one HTML page; default "agechart".
@@ -103,18 +104,25 @@ func SVG(rows []Row, opts Options) string {
 	if opts.ID == "" {
 		opts.ID = "agechart"
 	}
-	maxAge := opts.MaxAgeDays
-	if maxAge <= 0 {
-		for _, r := range rows {
-			for _, p := range r.Pages {
-				if p.AgeDays > maxAge && norm(p.Status) != Unknown {
-					maxAge = p.AgeDays
-				}
+	oldest := 0
+	for _, r := range rows {
+		for _, p := range r.Pages {
+			if p.AgeDays > oldest && norm(p.Status) != Unknown {
+				oldest = p.AgeDays
 			}
 		}
 	}
+	// A fixed end is kept as given, and pages past it are drawn at it,
+	// its label saying so ("730+"); an end fitted to the data is rounded
+	// up to a tick.
+	maxAge, over := opts.MaxAgeDays, false
 	step := tickStep(maxAge)
-	maxAge = max(step, int(math.Ceil(float64(maxAge)/float64(step)))*step)
+	if maxAge > 0 {
+		over = oldest > maxAge
+	} else {
+		step = tickStep(oldest)
+		maxAge = max(step, int(math.Ceil(float64(oldest)/float64(step)))*step)
+	}
 
 	nrows := max(len(rows), 1)
 	h := topH + nrows*rowH + axisH
@@ -143,10 +151,20 @@ func SVG(rows []Row, opts Options) string {
 			fmt.Fprintf(&b, `<rect x="0" y="%d" width="%d" height="%d" fill="#f2f2f2"/>`+"\n", topH+i*rowH, opts.Width, rowH)
 		}
 	}
-	for d := 0; d <= maxAge; d += step {
+	var ticks []int
+	for d := 0; d < maxAge; d += step {
+		if maxAge-d >= step/2 { // else too close to the end's tick
+			ticks = append(ticks, d)
+		}
+	}
+	for _, d := range append(ticks, maxAge) {
 		x := ageX(d)
+		label := fmt.Sprint(d)
+		if d == maxAge && over {
+			label += "+"
+		}
 		fmt.Fprintf(&b, `<line x1="%.1f" y1="%d" x2="%.1f" y2="%d" stroke="#cccccc"/>`+"\n", x, plotTop, x, plotBottom)
-		fmt.Fprintf(&b, `<text x="%.1f" y="%d" text-anchor="middle">%d</text>`+"\n", x, plotBottom+14, d)
+		fmt.Fprintf(&b, `<text x="%.1f" y="%d" text-anchor="middle">%s</text>`+"\n", x, plotBottom+14, label)
 	}
 	fmt.Fprintf(&b, `<line x1="%d" y1="%d" x2="%d" y2="%d" stroke="#666666"/>`+"\n", plotX+plotW+4, plotTop, plotX+plotW+4, plotBottom)
 	fmt.Fprintf(&b, `<text x="%d" y="%d" text-anchor="middle">no date</text>`+"\n", noDateX, plotBottom+14)

@@ -178,3 +178,22 @@ func wellFormed(t *testing.T, s string) {
 		}
 	}
 }
+
+// A fixed axis end is labelled as such, with "+" when older pages are
+// drawn at it, and never crowds the tick before it.
+func TestSVGFixedEnd(t *testing.T) {
+	rows := []agechart.Row{{Owner: "o", Pages: []agechart.Page{{AgeDays: 1733, Status: agechart.Stale}, {AgeDays: 40, Status: agechart.Fresh}}}}
+	got := agechart.SVG(rows, agechart.Options{MaxAgeDays: 730})
+	wellFormed(t, got)
+	for _, want := range []string{`>0</text>`, `>540</text>`, `>730+</text>`} {
+		if !strings.Contains(got, want) {
+			t.Errorf("axis lacks %s", want)
+		}
+	}
+	if strings.Contains(got, `>720</text>`) {
+		t.Error("a tick at 720 crowds the end at 730")
+	}
+	if got := agechart.SVG(rows[:1], agechart.Options{MaxAgeDays: 2000}); strings.Contains(got, "+</text>") {
+		t.Error(`"+" on an axis that holds every page`)
+	}
+}
