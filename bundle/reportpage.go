@@ -11,6 +11,7 @@ import (
 
 	"github.com/kbc-project/kbc/build"
 	"github.com/kbc-project/kbc/build/dedupe"
+	"github.com/kbc-project/kbc/build/secrets"
 	"github.com/kbc-project/kbc/bundle/agechart"
 )
 
@@ -39,7 +40,8 @@ const maxPageWarnings = 1000
 // with the changed words marked in their sentences, the build's warnings,
 // and the counts of the secrets and hidden-text reports when res has them.
 // Credential values and hidden text are never on it: those reports hold
-// neither, and the page shows only their counts. Every name and text from
+// neither, the page shows only their counts, and a credential quoted in a
+// warning (a front matter value) is replaced by its marker. Every name and text from
 // the sources is escaped by html/template.
 func RenderReportsPage(res *build.Result) ([]byte, error) {
 	v := reportsView{
@@ -72,7 +74,11 @@ func RenderReportsPage(res *build.Result) ([]byte, error) {
 			v.WarningsLeft = len(res.Problems) - i
 			break
 		}
-		v.Warnings = append(v.Warnings, p.Error())
+		// A warning may quote a front matter value, and a credential can
+		// sit there as well as in the text: it is redacted here as in
+		// passages.
+		msg, _ := secrets.Redact(p.Error())
+		v.Warnings = append(v.Warnings, msg)
 	}
 	if s := res.Secrets; s != nil {
 		pages := map[string]bool{}

@@ -42,6 +42,7 @@ func hostileBuild(t *testing.T) *build.Result {
 		"keys.md":               {Data: []byte(front("Keys", "harbour-it", "2026-11-01") + "# Keys\n\nexport AWS_ACCESS_KEY_ID=" + secretValue + "\n\nAsk the desk for a badge.\n")},
 		"gate.md":               {Data: []byte(front("Gate", "harbour-it", "2026-11-01") + "# Gate\n\nOpen from six.<span style=\"display:none\">" + hiddenText + "</span>\n")},
 		"bad" + hostile + ".md": {Data: []byte("---\ntitle: [\n---\n# Broken\n\nBody.\n")},
+		"dated.md":              {Data: []byte("---\ntitle: Dated\nupdated: " + secretValue + "\n---\n# Dated\n\nA key pasted as a date.\n")},
 	}
 	for _, f := range fsys {
 		f.ModTime = time.Date(2026, 11, 2, 9, 0, 0, 0, time.UTC)
@@ -55,6 +56,13 @@ func hostileBuild(t *testing.T) *build.Result {
 	if len(res.Duplicates.Divergent) == 0 || res.Secrets.Total == 0 || res.Hidden.Total == 0 || len(res.Problems) == 0 {
 		t.Fatalf("the knowledge base lacks a case: divergent %d, secrets %d, hidden %d, problems %d",
 			len(res.Duplicates.Divergent), res.Secrets.Total, res.Hidden.Total, len(res.Problems))
+	}
+	quoted := false
+	for _, p := range res.Problems {
+		quoted = quoted || strings.Contains(p.Error(), secretValue)
+	}
+	if !quoted {
+		t.Fatal("no warning quotes the key pasted as a date: the page's redaction goes untested")
 	}
 	return res
 }
