@@ -7,6 +7,7 @@ import (
 	"slices"
 	"sort"
 	"strings"
+	"time"
 
 	"github.com/cespare/xxhash/v2"
 
@@ -56,10 +57,28 @@ type DuplicateCluster struct {
 // (numbers, versions, dates, units): the pairs most likely to give an
 // assistant two answers to one question.
 type DivergentCopy struct {
-	Canonical   Location            `json:"canonical"`
-	Copy        Location            `json:"copy"`
+	Canonical   Side                `json:"canonical"`
+	Copy        Side                `json:"copy"`
 	Jaccard     float64             `json:"jaccard"`
 	Differences []dedupe.Difference `json:"differences"`
+}
+
+// Side is one passage of a divergent pair: where it is, who owns its page,
+// how old it is, and whether the bundle serves it.
+type Side struct {
+	Location
+	Owner    string     `json:"owner,omitempty"`
+	Updated  time.Time  `json:"updated,omitzero"`
+	Reviewed *time.Time `json:"reviewed,omitempty"`
+	// InBundle reports whether the passage is in the bundle. The copy of
+	// a folded pair is not (it is listed in the canonical passage's
+	// also_at); a pair found by its figures alone keeps both, and a hit
+	// on either names the other.
+	InBundle bool `json:"in_bundle"`
+}
+
+func side(p *Passage) Side {
+	return Side{Location: locate(p), Owner: p.Owner, Updated: p.Updated, Reviewed: p.Reviewed}
 }
 
 // DuplicateReport lists what the duplicate stage found, divergent copies
@@ -186,7 +205,13 @@ func dedupeDigest(ps []Passage, docs map[string]*sources.Document, opts dedupe.O
 		if d := docs[p.Path]; d != nil {
 			marked, _ = d.Front["canonical"].(bool)
 		}
-		fmt.Fprintf(h, "%s\x00%s\x00%s\x00%d %d %s %d %t\x00", p.ID, p.Path, p.Anchor, p.Line, p.EndLine, p.Hash, p.Updated.UnixNano(), marked)
+		// Owner and reviewed date are shown in the report's divergent
+		// pairs, so a change to either must not replay an old report.
+		var reviewed int64
+		if p.Reviewed != nil {
+			reviewed = p.Reviewed.UnixNano()
+		}
+		fmt.Fprintf(h, "%s\x00%s\x00%s\x00%d %d %s %d %d %t\x00%s\x00", p.ID, p.Path, p.Anchor, p.Line, p.EndLine, p.Hash, p.Updated.UnixNano(), reviewed, marked, p.Owner)
 	}
 	return hex.EncodeToString(h.Sum(nil))
 }
@@ -254,15 +279,17 @@ func findCopies(ps []Passage, docs map[string]*sources.Document, opts dedupe.Opt
 		}
 		if at := seen[[2]int{keep, m}]; at > 0 {
 			d := &rep.Divergent[at-1]
+			// The same change seen through another block is the same
+			// difference, whatever sentence that block gave it.
 			for _, x := range diffs {
-				if !slices.Contains(d.Differences, x) {
+				if !slices.ContainsFunc(d.Differences, func(y dedupe.Difference) bool { return x.A == y.A && x.B == y.B && x.Fact == y.Fact }) {
 					d.Differences = append(d.Differences, x)
 				}
 			}
 			return
 		}
 		rep.Divergent = append(rep.Divergent, DivergentCopy{
-			Canonical: locate(&ps[keep]), Copy: locate(&ps[m]), Jaccard: j, Differences: diffs,
+			Canonical: side(&ps[keep]), Copy: side(&ps[m]), Jaccard: j, Differences: diffs,
 		})
 		seen[[2]int{keep, m}] = len(rep.Divergent)
 	}
@@ -321,6 +348,10 @@ func findCopies(ps []Passage, docs map[string]*sources.Document, opts dedupe.Opt
 		return nil, nil, err
 	}
 	rep.Candidates += n
+	for pair, at := range seen {
+		d := &rep.Divergent[at-1]
+		d.Canonical.InBundle, d.Copy.InBundle = !drop[pair[0]], !drop[pair[1]]
+	}
 	sort.SliceStable(rep.Divergent, func(i, j int) bool {
 		a, b := rep.Divergent[i], rep.Divergent[j]
 		if a.Canonical.Path != b.Canonical.Path {

@@ -1,6 +1,7 @@
 package build
 
 import (
+	"fmt"
 	"strings"
 	"testing"
 	"time"
@@ -120,5 +121,61 @@ func TestDedupePassagesKeepsParallelSections(t *testing.T) {
 	}
 	if len(kept) != 2 || rep.Removed != 0 || len(rep.Divergent) != 0 {
 		t.Errorf("kept %d, removed %d, divergent %d; want 2, 0, 0", len(kept), rep.Removed, len(rep.Divergent))
+	}
+}
+
+// A divergent pair records each side's owner and dates and whether the
+// bundle serves it: a folded copy is not served, a pair found only with
+// figures masked keeps both. The cache key covers the owner, so a new
+// owner is not hidden behind a remembered report.
+func TestDivergentSides(t *testing.T) {
+	day := func(d int) time.Time { return time.Date(2026, 3, d, 0, 0, 0, 0, time.UTC) }
+	long := "Check the reefer door seals every %s days at the depot, and also after any reported impact to the rear doors, after the trailer has been off the road for more than two weeks, and before the first load of any pharma contract. Record the result in the fleet system against the trailer number."
+	short := "Drain the %s litre tank on the trailer after %s days, refill it with %s litres of coolant, and log the level in the fleet system before %s in the morning."
+	reviewed := day(20)
+	ps := []Passage{
+		{ID: "fold-a", Path: "fleet/seals.md", Line: 1, Text: strings.ReplaceAll(long, "%s", "30"), Owner: "fleet-ops", Updated: day(10), Reviewed: &reviewed},
+		{ID: "fold-b", Path: "north/seals.md", Line: 1, Text: strings.ReplaceAll(long, "%s", "90"), Owner: "depot-north", Updated: day(2)},
+		{ID: "keep-a", Path: "fleet/tank.md", Line: 1, Text: fmt.Sprintf(short, "40", "3", "20", "6"), Owner: "fleet-ops", Updated: day(10)},
+		{ID: "keep-b", Path: "north/tank.md", Line: 1, Text: fmt.Sprintf(short, "60", "5", "25", "7"), Owner: "depot-north", Updated: day(2)},
+	}
+	for i := range ps {
+		ps[i].Hash = ps[i].ID
+	}
+	_, rep, err := dedupePassages(append([]Passage(nil), ps...), nil, dedupe.DefaultOptions(), nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	got := map[string]DivergentCopy{}
+	for _, d := range rep.Divergent {
+		got[d.Canonical.ID+"/"+d.Copy.ID] = d
+	}
+	fold, ok := got["fold-a/fold-b"]
+	if !ok {
+		t.Fatalf("folded pair not reported: %+v", rep.Divergent)
+	}
+	if !fold.Canonical.InBundle || fold.Copy.InBundle {
+		t.Errorf("folded pair in bundle: %v, %v; want true, false", fold.Canonical.InBundle, fold.Copy.InBundle)
+	}
+	if fold.Canonical.Owner != "fleet-ops" || fold.Copy.Owner != "depot-north" || !fold.Canonical.Updated.Equal(day(10)) ||
+		fold.Canonical.Reviewed == nil || !fold.Canonical.Reviewed.Equal(reviewed) || fold.Copy.Reviewed != nil {
+		t.Errorf("sides %+v, %+v", fold.Canonical, fold.Copy)
+	}
+	if d := fold.Differences; len(d) == 0 || !strings.Contains(d[0].SentenceA, "every 30 days at the depot") {
+		t.Errorf("differences %+v lack the sentence", d)
+	}
+	if kept, ok := got["keep-a/keep-b"]; !ok || (!kept.Canonical.InBundle || !kept.Copy.InBundle) {
+		t.Errorf("pair found by figures: in bundle %v, %v; want both", kept.Canonical.InBundle, kept.Copy.InBundle)
+	}
+
+	other := append([]Passage(nil), ps...)
+	other[1].Owner = "depot-south"
+	if dedupeDigest(ps, nil, dedupe.DefaultOptions()) == dedupeDigest(other, nil, dedupe.DefaultOptions()) {
+		t.Error("the duplicate stage's cache key ignores the owner")
+	}
+	other = append([]Passage(nil), ps...)
+	other[1].Reviewed = &reviewed
+	if dedupeDigest(ps, nil, dedupe.DefaultOptions()) == dedupeDigest(other, nil, dedupe.DefaultOptions()) {
+		t.Error("the duplicate stage's cache key ignores the reviewed date")
 	}
 }

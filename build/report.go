@@ -17,9 +17,9 @@ type DocFreshness struct {
 	Path  string `json:"path"`
 	Title string `json:"title"`
 	fresh.Info
-	// OverdueDays counts whole days since the review-by (or expiry) date
-	// for stale and expired documents; DueInDays counts days until it for
-	// the others.
+	// OverdueDays counts whole days since the expiry date for expired
+	// documents and since the review-by date for stale ones; DueInDays
+	// counts days until the earlier of the two for the others.
 	OverdueDays int `json:"overdue_days,omitempty"`
 	DueInDays   int `json:"due_in_days,omitempty"`
 }
@@ -62,7 +62,9 @@ type AgeBucket struct {
 	Documents int    `json:"documents"`
 }
 
-// OwnerGroup is the documents of one owner, worst first.
+// OwnerGroup is the documents of one owner, worst first. The report lists
+// owners by their worst document, so the first group holds the page that
+// most needs attention.
 type OwnerGroup struct {
 	Owner     string         `json:"owner"` // "" for documents without one
 	Counts    StatusCounts   `json:"counts"`
@@ -103,8 +105,10 @@ func NewStalenessReport(docs []DocFreshness, now time.Time, p fresh.Policy) *Sta
 	r.Documents = append([]DocFreshness(nil), docs...)
 	for i := range r.Documents {
 		d := &r.Documents[i]
+		// An expired page is overdue from its expiry date, whatever its
+		// review-by date says: that is the day it stopped being true.
 		due := d.ReviewBy
-		if d.Expires != nil && (due.IsZero() || d.Expires.Before(due)) {
+		if d.Expires != nil && (due.IsZero() || d.Expires.Before(due) || d.Status == fresh.Expired) {
 			due = *d.Expires
 		}
 		d.OverdueDays, d.DueInDays = 0, 0
@@ -118,15 +122,9 @@ func NewStalenessReport(docs []DocFreshness, now time.Time, p fresh.Policy) *Sta
 		}
 	}
 	sort.SliceStable(r.Documents, func(i, j int) bool {
-		a, b := r.Documents[i], r.Documents[j]
-		if sa, sb := a.Status.Severity(), b.Status.Severity(); sa != sb {
-			return sa < sb
-		}
-		if a.OverdueDays != b.OverdueDays {
-			return a.OverdueDays > b.OverdueDays
-		}
-		if a.DueInDays != b.DueInDays {
-			return a.DueInDays < b.DueInDays
+		a, b := &r.Documents[i], &r.Documents[j]
+		if c := worse(a, b); c != 0 {
+			return c < 0
 		}
 		return a.Path < b.Path
 	})
@@ -150,14 +148,16 @@ func NewStalenessReport(docs []DocFreshness, now time.Time, p fresh.Policy) *Sta
 		g.Counts.add(d.Status)
 		g.Documents = append(g.Documents, d)
 	}
-	// Owners with the most stale or expired documents first.
+	// Owners by their worst page (each group is sorted worst first), then
+	// by how many pages are stale or expired, then by name: the owner
+	// whose page most needs attention comes first.
 	sort.SliceStable(owners, func(i, j int) bool {
-		a, b := byOwner[owners[i]].Counts, byOwner[owners[j]].Counts
-		if a.StaleOrExpired() != b.StaleOrExpired() {
-			return a.StaleOrExpired() > b.StaleOrExpired()
+		a, b := byOwner[owners[i]], byOwner[owners[j]]
+		if c := worse(&a.Documents[0], &b.Documents[0]); c != 0 {
+			return c < 0
 		}
-		if a.DueSoon != b.DueSoon {
-			return a.DueSoon > b.DueSoon
+		if x, y := a.Counts.StaleOrExpired(), b.Counts.StaleOrExpired(); x != y {
+			return x > y
 		}
 		return owners[i] < owners[j]
 	})
@@ -166,6 +166,19 @@ func NewStalenessReport(docs []DocFreshness, now time.Time, p fresh.Policy) *Sta
 	}
 	r.Notes = datingNotes(r.Documents)
 	return r
+}
+
+// worse orders two documents, worst first: by status (expired, stale,
+// unknown, due soon, fresh), then most days overdue, then fewest days
+// until due. It returns a negative number when a is worse, 0 on a tie.
+func worse(a, b *DocFreshness) int {
+	if sa, sb := a.Status.Severity(), b.Status.Severity(); sa != sb {
+		return sa - sb
+	}
+	if a.OverdueDays != b.OverdueDays {
+		return b.OverdueDays - a.OverdueDays
+	}
+	return a.DueInDays - b.DueInDays
 }
 
 // datingNotes warns, once for the whole set, when file times were set

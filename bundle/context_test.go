@@ -147,8 +147,8 @@ func TestQueryConflict(t *testing.T) {
 		t.Fatal("the pair is not divergent")
 	}
 	b := writeWithReports(t, []build.Passage{copyP, canon}, []build.DivergentCopy{{
-		Canonical: build.Location{ID: "canon", Path: canon.Path, Anchor: canon.Anchor},
-		Copy:      build.Location{ID: "copy", Path: copyP.Path, Anchor: copyP.Anchor},
+		Canonical: build.Side{Location: build.Location{ID: "canon", Path: canon.Path, Anchor: canon.Anchor}, InBundle: true},
+		Copy:      build.Side{Location: build.Location{ID: "copy", Path: copyP.Path, Anchor: copyP.Anchor}, InBundle: true},
 		Jaccard:   0.6, Differences: diffs,
 	}})
 	hits, err := b.Query("reefer door seals", SearchOptions{Now: queryNow})

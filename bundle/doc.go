@@ -12,6 +12,10 @@
 //	index/stats.json       field statistics and parameters for BM25 (see Bundle.Search)
 //	...                    extra files the caller adds (reports), as given
 //
+// The reports a build adds are rendered by ReportFiles: each in JSON and
+// Markdown under reports/, and reports/index.html (RenderReportsPage), one
+// self-contained page for people with the chart of bundle/agechart.
+//
 // manifest.json has sorted keys, two-space indentation and a final newline.
 // It lists every other file with the SHA-256 of its bytes, so Verify can tell
 // a bundle that is complete and unchanged. The bundle id is the SHA-256 of

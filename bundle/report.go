@@ -7,8 +7,11 @@ import (
 	"sort"
 	"strings"
 	"time"
+	"unicode"
+	"unicode/utf8"
 
 	"github.com/kbc-project/kbc/build"
+	"github.com/kbc-project/kbc/build/fresh"
 	"github.com/kbc-project/kbc/internal/printable"
 )
 
@@ -54,7 +57,8 @@ func mdCell(s string) string {
 }
 
 // RenderStaleness writes the staleness report as Markdown: the caution,
-// counts per status, the age histogram, then documents grouped by owner,
+// counts per status, a table of owners by status (owners in the order of
+// their worst page), the age histogram, then each owner's documents,
 // worst first.
 func RenderStaleness(r *build.StalenessReport) []byte {
 	var b bytes.Buffer
@@ -67,6 +71,19 @@ func RenderStaleness(r *build.StalenessReport) []byte {
 	for _, n := range r.Notes {
 		fmt.Fprintf(&b, "> **Note.** %s.\n\n", n)
 	}
+	if len(r.Owners) > 0 {
+		fmt.Fprintf(&b, "## Owners\n\nOwners in order of their worst page: the page most overdue for review comes first.\n\n")
+		fmt.Fprintf(&b, "| owner | expired | stale | unknown | due soon | fresh | total | worst page |\n|---|---:|---:|---:|---:|---:|---:|---|\n")
+		for _, g := range r.Owners {
+			gc, w := g.Counts, g.Documents[0]
+			worst := fmt.Sprintf("%s: %s", mdCell(w.Path), w.Status)
+			if d := overdue(&w); d != "" {
+				worst += ", " + d
+			}
+			fmt.Fprintf(&b, "| %s | %d | %d | %d | %d | %d | %d | %s |\n", mdCell(ownerName(g.Owner)), gc.Expired, gc.Stale, gc.Unknown, gc.DueSoon, gc.Fresh, gc.Total, worst)
+		}
+		fmt.Fprintf(&b, "| all | %d | %d | %d | %d | %d | %d | |\n\n", c.Expired, c.Stale, c.Unknown, c.DueSoon, c.Fresh, c.Total)
+	}
 	fmt.Fprintf(&b, "## Age of documents\n\n| age | documents | |\n|---|---:|---|\n")
 	most := 1
 	for _, h := range r.Histogram {
@@ -76,21 +93,10 @@ func RenderStaleness(r *build.StalenessReport) []byte {
 		fmt.Fprintf(&b, "| %s | %d | %s |\n", h.Label, h.Documents, strings.Repeat("#", (h.Documents*30+most-1)/most))
 	}
 	for _, g := range r.Owners {
-		owner := g.Owner
-		if owner == "" {
-			owner = "(no owner)"
-		}
 		gc := g.Counts
-		fmt.Fprintf(&b, "\n## %s\n\n%d expired, %d stale, %d due soon, %d fresh, %d unknown\n\n", printable.Quote(owner), gc.Expired, gc.Stale, gc.DueSoon, gc.Fresh, gc.Unknown)
-		fmt.Fprintf(&b, "| status | document | updated | from | review by | |\n|---|---|---|---|---|---|\n")
+		fmt.Fprintf(&b, "\n## %s\n\n%d expired, %d stale, %d due soon, %d fresh, %d unknown\n\n", printable.Quote(ownerName(g.Owner)), gc.Expired, gc.Stale, gc.DueSoon, gc.Fresh, gc.Unknown)
+		fmt.Fprintf(&b, "| status | document | updated | reviewed | from | review by | |\n|---|---|---|---|---|---|---|\n")
 		for _, d := range g.Documents {
-			when := ""
-			switch {
-			case d.OverdueDays > 0:
-				when = fmt.Sprintf("%d days overdue", d.OverdueDays)
-			case d.DueInDays > 0 && d.Status != "fresh":
-				when = fmt.Sprintf("due in %d days", d.DueInDays)
-			}
 			by := day(d.ReviewBy)
 			if d.Expires != nil {
 				by += " (expires " + day(*d.Expires) + ")"
@@ -99,10 +105,108 @@ func RenderStaleness(r *build.StalenessReport) []byte {
 			if d.SetAside != "" {
 				from = "set aside: " + d.SetAside
 			}
-			fmt.Fprintf(&b, "| %s | %s (%s) | %s | %s | %s | %s |\n", d.Status, mdCell(d.Title), mdCell(d.Path), day(d.Updated), mdCell(from), by, when)
+			reviewed := "-"
+			if d.Reviewed != nil {
+				reviewed = day(*d.Reviewed)
+			}
+			fmt.Fprintf(&b, "| %s | %s (%s) | %s | %s | %s | %s | %s |\n", d.Status, mdCell(d.Title), mdCell(d.Path), day(d.Updated), reviewed, mdCell(from), by, overdue(&d))
 		}
 	}
 	return b.Bytes()
+}
+
+// Serves says which passages of a divergent pair the bundle serves, as a
+// sentence.
+func Serves(d *build.DivergentCopy) string {
+	switch c, o := d.Canonical.InBundle, d.Copy.InBundle; {
+	case c && o:
+		return "The bundle serves both copies; a search hit on either names the other."
+	case c:
+		return "The bundle serves the canonical copy; the other is left out and listed in its also_at."
+	case o:
+		return "The bundle serves the copy; the canonical side was folded into another passage."
+	}
+	return "The bundle serves neither passage as is: both were folded into other passages."
+}
+
+func dayPtr(t *time.Time) string {
+	if t == nil {
+		return "-"
+	}
+	return day(*t)
+}
+
+func yesNo(v bool) string {
+	if v {
+		return "yes"
+	}
+	return "no (folded)"
+}
+
+// mdMark writes sentence for a Markdown table cell with the first
+// occurrence of run in bold; without a sentence, the run alone in bold.
+func mdMark(sentence, run string) string {
+	if run == "" {
+		return mdCell(sentence)
+	}
+	i := wordIndex(sentence, run)
+	if i < 0 {
+		return "**" + mdCell(run) + "**"
+	}
+	cell := func(s string) string {
+		if s == "" {
+			return ""
+		}
+		return mdCell(s)
+	}
+	return cell(sentence[:i]) + "**" + mdCell(run) + "**" + cell(sentence[i+len(run):])
+}
+
+// wordIndex returns the index of the first occurrence of run in s that
+// does not start or end inside a word, else of the first at all, else -1:
+// "in" is marked in "check in the system", not in "Drivers".
+func wordIndex(s, run string) int {
+	first := strings.Index(s, run)
+	for i := first; i >= 0; {
+		before, _ := utf8.DecodeLastRuneInString(s[:i])
+		after, _ := utf8.DecodeRuneInString(s[i+len(run):])
+		if !isWordRune(before) && !isWordRune(after) {
+			return i
+		}
+		next := strings.Index(s[i+1:], run)
+		if next < 0 {
+			break
+		}
+		i += 1 + next
+	}
+	return first
+}
+
+func isWordRune(r rune) bool { return unicode.IsLetter(r) || unicode.IsDigit(r) }
+
+// ownerName is how reports name an owner; "" is "(no owner)".
+func ownerName(owner string) string {
+	if owner == "" {
+		return "(no owner)"
+	}
+	return owner
+}
+
+// overdue says how late a document is ("12 days overdue", counted from
+// the expiry date for an expired page) or how soon it is due, or "" for a
+// fresh page or one without dates.
+func overdue(d *build.DocFreshness) string {
+	switch {
+	case d.OverdueDays > 0 && d.Status == fresh.Expired:
+		return fmt.Sprintf("%d days past expiry", d.OverdueDays)
+	case d.OverdueDays > 0:
+		return fmt.Sprintf("%d days overdue", d.OverdueDays)
+	case d.DueInDays > 0 && d.Status != fresh.Fresh:
+		return fmt.Sprintf("due in %d days", d.DueInDays)
+	case d.Status == fresh.DueSoon && !d.ReviewBy.IsZero():
+		return "due today"
+	}
+	return ""
 }
 
 // RenderBoilerplate writes the boilerplate report as Markdown.
@@ -121,7 +225,9 @@ func RenderBoilerplate(entries []build.BoilerplateEntry) []byte {
 }
 
 // RenderDuplicates writes the duplicate report as Markdown: divergent
-// copies first, with the differing words side by side, then every cluster.
+// copies first, each with both pages' owners and dates, which copy the
+// bundle serves, and every difference in the sentence around it; then
+// every cluster.
 func RenderDuplicates(r *build.DuplicateReport) []byte {
 	var b bytes.Buffer
 	fmt.Fprintf(&b, "# Duplicate passages\n\n")
@@ -134,14 +240,20 @@ func RenderDuplicates(r *build.DuplicateReport) []byte {
 	} else {
 		fmt.Fprintf(&b, "Copies of one passage that disagree on a number, version, date or unit. An assistant may answer from either, so settle which is right and fix or remove the other.\n")
 		for _, d := range r.Divergent {
-			fmt.Fprintf(&b, "\n### %s vs %s\n\n", d.Canonical.Ref(), d.Copy.Ref())
-			fmt.Fprintf(&b, "Jaccard %.2f; lines %d-%d vs %d-%d.\n\n", d.Jaccard, d.Canonical.Line, d.Canonical.EndLine, d.Copy.Line, d.Copy.EndLine)
-			fmt.Fprintf(&b, "| %s | %s |\n|---|---|\n", mdCell(d.Canonical.Path), mdCell(d.Copy.Path))
+			c, o := d.Canonical, d.Copy
+			fmt.Fprintf(&b, "\n### %s vs %s\n\n", mdCell(c.Ref()), mdCell(o.Ref()))
+			fmt.Fprintf(&b, "%s Jaccard similarity %.2f.\n\n", Serves(&d), d.Jaccard)
+			fmt.Fprintf(&b, "| | canonical | copy |\n|---|---|---|\n")
+			fmt.Fprintf(&b, "| where | %s:%d-%d | %s:%d-%d |\n", mdCell(c.Path), c.Line, c.EndLine, mdCell(o.Path), o.Line, o.EndLine)
+			fmt.Fprintf(&b, "| owner | %s | %s |\n", mdCell(ownerName(c.Owner)), mdCell(ownerName(o.Owner)))
+			fmt.Fprintf(&b, "| updated | %s | %s |\n", day(c.Updated), day(o.Updated))
+			fmt.Fprintf(&b, "| reviewed | %s | %s |\n", dayPtr(c.Reviewed), dayPtr(o.Reviewed))
+			fmt.Fprintf(&b, "| in the bundle | %s | %s |\n", yesNo(c.InBundle), yesNo(o.InBundle))
 			for _, x := range d.Differences {
 				if x.Fact {
-					fmt.Fprintf(&b, "| **%s** | **%s** |\n", mdCell(x.A), mdCell(x.B))
+					fmt.Fprintf(&b, "| **differs** | %s | %s |\n", mdMark(x.SentenceA, x.A), mdMark(x.SentenceB, x.B))
 				} else {
-					fmt.Fprintf(&b, "| %s | %s |\n", mdCell(x.A), mdCell(x.B))
+					fmt.Fprintf(&b, "| wording | %s | %s |\n", mdMark(x.SentenceA, x.A), mdMark(x.SentenceB, x.B))
 				}
 			}
 		}

@@ -21,6 +21,14 @@ type Difference struct {
 	// Fact reports whether the changed words (not the context) carry a
 	// fact: a number, version, date or unit (see Divergent).
 	Fact bool `json:"fact"`
+	// SentenceA and SentenceB are the sentences of each text around A and
+	// B, for a reader to see the change in place: from the end of the
+	// sentence or line before to the end of the sentence or line, at most
+	// about maxAround bytes on either side of the run (cut at a space and
+	// marked with "…"), white space collapsed. A and B are runs of words
+	// within them.
+	SentenceA string `json:"sentence_a,omitempty"`
+	SentenceB string `json:"sentence_b,omitempty"`
 }
 
 // maxEdits bounds the word edit distance Divergent works out in full; past
@@ -75,6 +83,7 @@ func Divergent(a, b string) ([]Difference, bool) {
 		ok = ok || diffs[i].Fact
 		if swapped {
 			diffs[i].A, diffs[i].B = diffs[i].B, diffs[i].A
+			diffs[i].SentenceA, diffs[i].SentenceB = diffs[i].SentenceB, diffs[i].SentenceA
 		}
 	}
 	return diffs, ok
@@ -129,8 +138,8 @@ func runs(a, b string, ta, tb []token) []Difference {
 				ib--
 			}
 		}
-		d.A = span(a, ta, ia, ea)
-		d.B = span(b, tb, ib, eb)
+		d.A, d.SentenceA = span(a, ta, ia, ea)
+		d.B, d.SentenceB = span(b, tb, ib, eb)
 		diffs = append(diffs, d)
 	}
 	return diffs
@@ -160,10 +169,16 @@ func terse(ts []token) bool {
 }
 
 // span returns the text of words ts[i:j] of s as written, with a currency
-// sign just before and a '%' or '°' just after, white space collapsed.
-func span(s string, ts []token, i, j int) string {
+// sign just before and a '%' or '°' just after, white space collapsed, and
+// the sentence around it (see Difference). An empty run has no text but
+// still a sentence: the one where the other text's words would be.
+func span(s string, ts []token, i, j int) (text, sentence string) {
 	if i >= j {
-		return ""
+		at := len(s)
+		if i < len(ts) {
+			at = ts[i].start
+		}
+		return "", around(s, at, at)
 	}
 	start, end := ts[i].start, ts[j-1].end
 	if r, size := utf8.DecodeLastRuneInString(s[:start]); strings.ContainsRune("$€£¥", r) {
@@ -172,7 +187,59 @@ func span(s string, ts []token, i, j int) string {
 	if r, size := utf8.DecodeRuneInString(s[end:]); r == '%' || r == '°' {
 		end += size
 	}
-	return strings.Join(strings.Fields(s[start:end]), " ")
+	return strings.Join(strings.Fields(s[start:end]), " "), around(s, start, end)
+}
+
+// maxAround bounds the context around a run on either side, in bytes: two
+// lines of a report's table cell. Judgement, no source.
+const maxAround = 160
+
+// around returns the sentence of s that holds s[start:end]: back to just
+// after a line break or a '.', '!' or '?' followed by white space, forward
+// through the next such mark or to the next line break; each side cut at
+// a space after maxAround bytes and marked with "…". White space is
+// collapsed.
+func around(s string, start, end int) string {
+	from, cutFrom := start, false
+	for from > 0 {
+		c := s[from-1]
+		if c == '\n' || (from >= 2 && asciiSpace(c) && strings.IndexByte(".!?", s[from-2]) >= 0) {
+			break
+		}
+		if start-from >= maxAround && asciiSpace(c) {
+			cutFrom = true
+			break
+		}
+		from--
+	}
+	to, cutTo := end, false
+	for to < len(s) {
+		c := s[to]
+		if c == '\n' {
+			break
+		}
+		if strings.IndexByte(".!?", c) >= 0 && (to+1 == len(s) || asciiSpace(s[to+1])) {
+			to++
+			break
+		}
+		if to-end >= maxAround && asciiSpace(c) {
+			cutTo = true
+			break
+		}
+		to++
+	}
+	out := strings.Join(strings.Fields(s[from:to]), " ")
+	if cutFrom {
+		out = "… " + out
+	}
+	if cutTo {
+		out += " …"
+	}
+	return out
+}
+
+func asciiSpace(c byte) bool {
+	return c == ' ' || c == '\t' || c == '\n' || c == '\r' || c == '\f' || c == '\v'
 }
 
 // match returns the index pairs of the words a shortest edit script keeps,

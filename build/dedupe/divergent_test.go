@@ -7,66 +7,124 @@ import (
 	"testing"
 )
 
+// run is a Difference without its sentences, which TestDivergentSentences
+// checks.
+type run struct {
+	A, B string
+	Fact bool
+}
+
 func TestDivergent(t *testing.T) {
 	tests := []struct {
 		name string
 		a, b string
-		want []Difference
+		want []run
 		ok   bool
 	}{
 		{"days", "Keys rotate every 30 days.", "Keys rotate every 90 days.",
-			[]Difference{{"30 days", "90 days", true}}, true},
+			[]run{{"30 days", "90 days", true}}, true},
 		{"version", "Requires v1.2 or later.", "Requires v1.3 or later.",
-			[]Difference{{"v1.2", "v1.3", true}}, true},
+			[]run{{"v1.2", "v1.3", true}}, true},
 		{"dotted version", "Install 1.2.3 first", "Install 1.2.4 first",
-			[]Difference{{"1.2.3 first", "1.2.4 first", true}}, true},
+			[]run{{"1.2.3 first", "1.2.4 first", true}}, true},
 		{"iso date", "Released on 2026-01-04 to all users", "Released on 2026-02-04 to all users",
-			[]Difference{{"2026-01-04 to", "2026-02-04 to", true}}, true},
+			[]run{{"2026-01-04 to", "2026-02-04 to", true}}, true},
 		{"written date", "Support ends 4 January 2026.", "Support ends 4 March 2026.",
-			[]Difference{{"January", "March", true}}, true},
+			[]run{{"January", "March", true}}, true},
 		{"month abbreviation beside a number", "Due 4 Jan 2026", "Due 4 Feb 2026",
-			[]Difference{{"Jan", "Feb", true}}, true},
+			[]run{{"Jan", "Feb", true}}, true},
 		// A weekday is a date: a changed maintenance day is a changed fact.
 		{"weekday", "Backups run every Tuesday night.", "Backups run every Thursday night.",
-			[]Difference{{"Tuesday", "Thursday", true}}, true},
+			[]run{{"Tuesday", "Thursday", true}}, true},
 		{"unit", "Heat the probe to 30 °C first.", "Heat the probe to 30 °F first.",
-			[]Difference{{"30 °C", "30 °F", true}}, true},
+			[]run{{"30 °C", "30 °F", true}}, true},
 		{"unit word", "Wait 30 seconds.", "Wait 30 minutes.",
-			[]Difference{{"seconds", "minutes", true}}, true},
+			[]run{{"seconds", "minutes", true}}, true},
 		{"percent", "Alert above 80% disk use", "Alert above 90% disk use",
-			[]Difference{{"80% disk", "90% disk", true}}, true},
+			[]run{{"80% disk", "90% disk", true}}, true},
 		{"thousands", "Up to 2,500 queues", "Up to 3,500 queues",
-			[]Difference{{"2,500 queues", "3,500 queues", true}}, true},
+			[]run{{"2,500 queues", "3,500 queues", true}}, true},
 		{"time", "Starts at 10:30 UTC", "Starts at 11:30 UTC",
-			[]Difference{{"10:30 UTC", "11:30 UTC", true}}, true},
+			[]run{{"10:30 UTC", "11:30 UTC", true}}, true},
 		{"number word", "Keep three replicas", "Keep five replicas",
-			[]Difference{{"three", "five", true}}, true},
+			[]run{{"three", "five", true}}, true},
 		{"size", "Needs 4 GB of memory", "Needs 4 MB of memory",
-			[]Difference{{"4 GB", "4 MB", true}}, true},
+			[]run{{"4 GB", "4 MB", true}}, true},
 		{"wording", "Click the button to save your work.", "Select the button to save your work.",
-			[]Difference{{"Click", "Select", false}}, false},
+			[]run{{"Click", "Select", false}}, false},
 		{"may is a verb", "You may restart the broker.", "You can restart the broker.",
-			[]Difference{{"may", "can", false}}, false},
+			[]run{{"may", "can", false}}, false},
 		{"letter is no unit without a number", "Pass the -f flag", "Pass the -c flag",
-			[]Difference{{"the -f", "the -c", false}}, false},
+			[]run{{"the -f", "the -c", false}}, false},
 		{"inserted word", "The service is available", "The service is not available",
-			[]Difference{{"available", "not available", false}}, false},
+			[]run{{"available", "not available", false}}, false},
 		{"deleted at the end", "Restart the broker now", "Restart the broker",
-			[]Difference{{"broker now", "broker", false}}, false},
+			[]run{{"broker now", "broker", false}}, false},
 		{"several runs, one a fact", "Click Save and wait 5 minutes for the sync.", "Press Save and wait 15 minutes for the sync.",
-			[]Difference{{"Click", "Press", false}, {"5 minutes", "15 minutes", true}}, true},
+			[]run{{"Click", "Press", false}, {"5 minutes", "15 minutes", true}}, true},
 		{"case and punctuation only", "Hello, World!", "hello world", nil, false},
 		{"identical", "same text", "same text", nil, false},
 		{"both empty", "", "", nil, false},
-		{"one empty", "", "Some words", []Difference{{"", "Some words", false}}, false},
-		{"no shared word", "alpha beta", "gamma 7", []Difference{{"alpha beta", "gamma 7", true}}, true},
-		{"white space collapsed", "wait 5\n  minutes", "wait 6 minutes", []Difference{{"5 minutes", "6 minutes", true}}, true},
+		{"one empty", "", "Some words", []run{{"", "Some words", false}}, false},
+		{"no shared word", "alpha beta", "gamma 7", []run{{"alpha beta", "gamma 7", true}}, true},
+		{"white space collapsed", "wait 5\n  minutes", "wait 6 minutes", []run{{"5 minutes", "6 minutes", true}}, true},
 	}
 	for _, tt := range tests {
 		t.Run(tt.name, func(t *testing.T) {
-			got, ok := Divergent(tt.a, tt.b)
+			diffs, ok := Divergent(tt.a, tt.b)
+			var got []run
+			for _, d := range diffs {
+				got = append(got, run{d.A, d.B, d.Fact})
+			}
 			if !reflect.DeepEqual(got, tt.want) || ok != tt.ok {
 				t.Errorf("Divergent = %+v, %v; want %+v, %v", got, ok, tt.want, tt.ok)
+			}
+		})
+	}
+}
+
+// Each difference comes with the sentence around it in each text: from
+// the end of the sentence or line before to the end of its own, cut with
+// "…" far from the run.
+func TestDivergentSentences(t *testing.T) {
+	long := strings.Repeat("word ", 60)
+	tests := []struct {
+		name, a, b string
+		sa, sb     string
+	}{
+		{"middle sentence", "Dock 4 opens early. Keys rotate every 30 days at the depot. Ask the desk.",
+			"Dock 4 opens early. Keys rotate every 90 days at the depot. Ask the desk.",
+			"Keys rotate every 30 days at the depot.", "Keys rotate every 90 days at the depot."},
+		{"line break ends a sentence", "| Vennholm | 6 doors |\n| Saltmere | 4 doors |",
+			"| Vennholm | 6 doors |\n| Saltmere | 5 doors |",
+			"| Saltmere | 4 doors |", "| Saltmere | 5 doors |"},
+		{"version dots do not end it", "Requires v1.2 or later. Then restart.", "Requires v1.3 or later. Then restart.",
+			"Requires v1.2 or later.", "Requires v1.3 or later."},
+		{"long sentence is cut", long + "wait 5 minutes " + long + "end.", long + "wait 6 minutes " + long + "end.",
+			"", ""},
+		{"deleted word", "The gate is not open on Sunday. Call ahead.", "The gate is open on Sunday. Call ahead.",
+			"The gate is not open on Sunday.", "The gate is open on Sunday."},
+	}
+	for _, tt := range tests {
+		t.Run(tt.name, func(t *testing.T) {
+			diffs, _ := Divergent(tt.a, tt.b)
+			if len(diffs) != 1 {
+				t.Fatalf("differences %+v, want one", diffs)
+			}
+			d := diffs[0]
+			if tt.sa == "" { // cut: the run and the marks are there, within bounds
+				for _, s := range []string{d.SentenceA, d.SentenceB} {
+					if !strings.HasPrefix(s, "… ") || !strings.HasSuffix(s, " …") || len(s) > 2*maxAround+40 {
+						t.Errorf("sentence %q not cut on both sides", s)
+					}
+				}
+				if !strings.Contains(d.SentenceA, "wait 5 minutes") || !strings.Contains(d.SentenceB, "wait 6 minutes") {
+					t.Errorf("sentences %q, %q lack the runs", d.SentenceA, d.SentenceB)
+				}
+				return
+			}
+			if d.SentenceA != tt.sa || d.SentenceB != tt.sb {
+				t.Errorf("sentences %q, %q; want %q, %q", d.SentenceA, d.SentenceB, tt.sa, tt.sb)
 			}
 		})
 	}
@@ -150,7 +208,7 @@ func FuzzDivergent(f *testing.F) {
 		}
 		anyFact := false
 		for i, d := range diffs {
-			if back[i] != (Difference{A: d.B, B: d.A, Fact: d.Fact}) {
+			if back[i] != (Difference{A: d.B, B: d.A, Fact: d.Fact, SentenceA: d.SentenceB, SentenceB: d.SentenceA}) {
 				t.Fatalf("difference %d: %+v, swapped %+v", i, d, back[i])
 			}
 			da, db := words(d.A), words(d.B)
@@ -159,6 +217,9 @@ func FuzzDivergent(f *testing.F) {
 			}
 			if !isRun(da, wa) || !isRun(db, wb) {
 				t.Fatalf("difference %d: %+v not runs of %q and %q", i, d, wa, wb)
+			}
+			if sa, sb := words(d.SentenceA), words(d.SentenceB); !isRun(da, sa) || !isRun(db, sb) || !isRun(sa, wa) || !isRun(sb, wb) {
+				t.Fatalf("difference %d: %+v: runs not within their sentences, or sentences not within the texts", i, d)
 			}
 			anyFact = anyFact || d.Fact
 		}

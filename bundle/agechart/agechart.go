@@ -104,6 +104,38 @@ func SVG(rows []Row, opts Options) string {
 	if opts.ID == "" {
 		opts.ID = "agechart"
 	}
+	if opts.Desc == "" {
+		opts.Desc = summary(rows)
+	}
+	c := newChart(rows, opts)
+	var b strings.Builder
+	id := esc(opts.ID)
+	fmt.Fprintf(&b, `<svg xmlns="http://www.w3.org/2000/svg" role="img" width="%d" height="%d" viewBox="0 0 %d %d" aria-labelledby="%s-title %s-desc" font-family="sans-serif" font-size="12">`+"\n",
+		opts.Width, c.h, opts.Width, c.h, id, id)
+	fmt.Fprintf(&b, "<title id=\"%s-title\">%s</title>\n<desc id=\"%s-desc\">%s</desc>\n", id, esc(opts.Title), id, esc(opts.Desc))
+	fmt.Fprintf(&b, `<rect width="%d" height="%d" fill="#ffffff"/>`+"\n", opts.Width, c.h)
+	legend(&b)
+	c.axis(&b, max(len(rows), 1))
+	if len(rows) == 0 {
+		fmt.Fprintf(&b, `<text x="%d" y="%d">no pages</text>`+"\n", c.plotX+8, topH+rowH/2+4)
+	}
+	for i := range rows {
+		c.band(&b, i, &rows[i])
+	}
+	b.WriteString("</svg>\n")
+	return b.String()
+}
+
+// chart is the geometry of one image.
+type chart struct {
+	width, h     int
+	plotX, plotW int // the day axis
+	noDateX      int // the middle of the "no date" column
+	maxAge, step int
+	over         bool // pages older than maxAge are drawn at it
+}
+
+func newChart(rows []Row, opts Options) *chart {
 	oldest := 0
 	for _, r := range rows {
 		for _, p := range r.Pages {
@@ -112,111 +144,116 @@ func SVG(rows []Row, opts Options) string {
 			}
 		}
 	}
+	c := &chart{width: opts.Width, plotX: labelW, plotW: opts.Width - labelW - countW - noDateW}
+	c.h = topH + max(len(rows), 1)*rowH + axisH
+	c.noDateX = c.plotX + c.plotW + noDateW/2
 	// A fixed end is kept as given, and pages past it are drawn at it,
 	// its label saying so ("730+"); an end fitted to the data is rounded
 	// up to a tick.
-	maxAge, over := opts.MaxAgeDays, false
-	step := tickStep(maxAge)
-	if maxAge > 0 {
-		over = oldest > maxAge
+	c.maxAge, c.step = opts.MaxAgeDays, tickStep(opts.MaxAgeDays)
+	if c.maxAge > 0 {
+		c.over = oldest > c.maxAge
 	} else {
-		step = tickStep(oldest)
-		maxAge = max(step, int(math.Ceil(float64(oldest)/float64(step)))*step)
+		c.step = tickStep(oldest)
+		c.maxAge = max(c.step, int(math.Ceil(float64(oldest)/float64(c.step)))*c.step)
 	}
+	return c
+}
 
-	nrows := max(len(rows), 1)
-	h := topH + nrows*rowH + axisH
-	plotX := labelW
-	plotW := opts.Width - labelW - countW - noDateW
-	noDateX := plotX + plotW + noDateW/2
-	ageX := func(days int) float64 {
-		return float64(plotX) + float64(min(days, maxAge))*float64(plotW-2*marker)/float64(maxAge) + marker
-	}
-	if opts.Desc == "" {
-		opts.Desc = summary(rows)
-	}
+// ageX is where a page of this age sits on the day axis.
+func (c *chart) ageX(days int) float64 {
+	return float64(c.plotX) + float64(min(days, c.maxAge))*float64(c.plotW-2*marker)/float64(c.maxAge) + marker
+}
 
-	var b strings.Builder
-	id := esc(opts.ID)
-	fmt.Fprintf(&b, `<svg xmlns="http://www.w3.org/2000/svg" role="img" width="%d" height="%d" viewBox="0 0 %d %d" aria-labelledby="%s-title %s-desc" font-family="sans-serif" font-size="12">`+"\n",
-		opts.Width, h, opts.Width, h, id, id)
-	fmt.Fprintf(&b, "<title id=\"%s-title\">%s</title>\n<desc id=\"%s-desc\">%s</desc>\n", id, esc(opts.Title), id, esc(opts.Desc))
-	fmt.Fprintf(&b, `<rect width="%d" height="%d" fill="#ffffff"/>`+"\n", opts.Width, h)
-	legend(&b)
-
-	// Bands, the day grid and the axis.
-	plotTop, plotBottom := topH, topH+nrows*rowH
+// axis draws the bands' shading, the day grid with its labels and the
+// "no date" column for nrows bands.
+func (c *chart) axis(b *strings.Builder, nrows int) {
+	top, bottom := topH, topH+nrows*rowH
 	for i := range nrows {
 		if i%2 == 1 {
-			fmt.Fprintf(&b, `<rect x="0" y="%d" width="%d" height="%d" fill="#f2f2f2"/>`+"\n", topH+i*rowH, opts.Width, rowH)
+			fmt.Fprintf(b, `<rect x="0" y="%d" width="%d" height="%d" fill="#f2f2f2"/>`+"\n", topH+i*rowH, c.width, rowH)
 		}
 	}
 	var ticks []int
-	for d := 0; d < maxAge; d += step {
-		if maxAge-d >= step/2 { // else too close to the end's tick
+	for d := 0; d < c.maxAge; d += c.step {
+		if c.maxAge-d >= c.step/2 { // else too close to the end's tick
 			ticks = append(ticks, d)
 		}
 	}
-	for _, d := range append(ticks, maxAge) {
-		x := ageX(d)
+	for _, d := range append(ticks, c.maxAge) {
+		x := c.ageX(d)
 		label := fmt.Sprint(d)
-		if d == maxAge && over {
+		if d == c.maxAge && c.over {
 			label += "+"
 		}
-		fmt.Fprintf(&b, `<line x1="%.1f" y1="%d" x2="%.1f" y2="%d" stroke="#cccccc"/>`+"\n", x, plotTop, x, plotBottom)
-		fmt.Fprintf(&b, `<text x="%.1f" y="%d" text-anchor="middle">%s</text>`+"\n", x, plotBottom+14, label)
+		fmt.Fprintf(b, `<line x1="%.1f" y1="%d" x2="%.1f" y2="%d" stroke="#cccccc"/>`+"\n", x, top, x, bottom)
+		fmt.Fprintf(b, `<text x="%.1f" y="%d" text-anchor="middle">%s</text>`+"\n", x, bottom+14, label)
 	}
-	fmt.Fprintf(&b, `<line x1="%d" y1="%d" x2="%d" y2="%d" stroke="#666666"/>`+"\n", plotX+plotW+4, plotTop, plotX+plotW+4, plotBottom)
-	fmt.Fprintf(&b, `<text x="%d" y="%d" text-anchor="middle">no date</text>`+"\n", noDateX, plotBottom+14)
-	fmt.Fprintf(&b, `<text x="%d" y="%d" text-anchor="middle">days since last update</text>`+"\n", plotX+plotW/2, plotBottom+29)
+	fmt.Fprintf(b, `<line x1="%d" y1="%d" x2="%d" y2="%d" stroke="#666666"/>`+"\n", c.plotX+c.plotW+4, top, c.plotX+c.plotW+4, bottom)
+	fmt.Fprintf(b, `<text x="%d" y="%d" text-anchor="middle">no date</text>`+"\n", c.noDateX, bottom+14)
+	fmt.Fprintf(b, `<text x="%d" y="%d" text-anchor="middle">days since last update</text>`+"\n", c.plotX+c.plotW/2, bottom+29)
+}
 
-	if len(rows) == 0 {
-		fmt.Fprintf(&b, `<text x="%d" y="%d">no pages</text>`+"\n", plotX+8, topH+rowH/2+4)
+// perSpot is how many markers one spot of a band shows: the middle, one
+// above and one below. More would leave the band; the rest of the spot's
+// pages are counted in a "+N" beside it.
+const perSpot = 3
+
+// band draws row i: its label, its pages' markers and its counts. Pages
+// that land on the same spot are stacked up and down from the band's
+// middle in the order given, so the first (for a staleness report, the
+// worst) stay visible.
+func (c *chart) band(b *strings.Builder, i int, r *Row) {
+	mid := float64(topH+i*rowH) + rowH/2
+	owner := r.Owner
+	if owner == "" {
+		owner = "(no owner)"
 	}
-	for i, r := range rows {
-		y := topH + i*rowH
-		mid := float64(y) + rowH/2
-		owner := r.Owner
-		if owner == "" {
-			owner = "(no owner)"
+	fmt.Fprintf(b, `<g><text x="8" y="%.1f">%s<title>%s</title></text>`+"\n", mid+4, esc(clip(owner, 22)), esc(owner))
+	used := map[int]int{}
+	var spots []int         // in order of first use
+	at := map[int]float64{} // a spot's x
+	for _, p := range r.Pages {
+		st := norm(p.Status)
+		x := float64(c.noDateX)
+		if st != Unknown && p.AgeDays >= 0 {
+			x = c.ageX(p.AgeDays)
 		}
-		fmt.Fprintf(&b, `<g><text x="8" y="%.1f">%s<title>%s</title></text>`+"\n", mid+4, esc(clip(owner, 22)), esc(owner))
-		// Markers that would land on the same spot are stacked up and
-		// down from the band's middle, so each page stays visible.
-		used := map[int]int{}
-		for _, p := range r.Pages {
-			st := norm(p.Status)
-			var x float64
-			if st == Unknown || p.AgeDays < 0 {
-				x = float64(noDateX)
-			} else {
-				x = ageX(p.AgeDays)
-			}
-			slot := int(x) / (2 * marker)
-			n := used[slot]
-			used[slot]++
-			off := float64((n+1)/2) * (marker + 2)
-			if n%2 == 1 {
-				off = -off
-			}
-			off = math.Max(-rowH/2+marker, math.Min(rowH/2-marker, off))
-			tip := ""
-			if p.Title != "" {
-				switch {
-				case st == Unknown:
-					tip = p.Title + ": no date"
-				case p.AgeDays < 0:
-					tip = fmt.Sprintf("%s: %s, no date", p.Title, labels[st])
-				default:
-					tip = fmt.Sprintf("%s: %s, %d days", p.Title, labels[st], p.AgeDays)
-				}
-			}
-			shape(&b, st, x, mid+off, tip)
+		spot := int(x) / (2 * marker)
+		n := used[spot]
+		if n == 0 {
+			spots = append(spots, spot)
+			at[spot] = x
 		}
-		fmt.Fprintf(&b, `<text x="%d" y="%.1f" font-size="11">%s</text></g>`+"\n", plotX+plotW+noDateW+8, mid+4, esc(counts(r.Pages)))
+		used[spot]++
+		if n >= perSpot {
+			continue
+		}
+		off := float64((n+1)/2) * (marker + 2)
+		if n%2 == 1 {
+			off = -off
+		}
+		shape(b, st, x, mid+off, tooltip(p, st))
 	}
-	b.WriteString("</svg>\n")
-	return b.String()
+	for _, spot := range spots {
+		if more := used[spot] - perSpot; more > 0 {
+			fmt.Fprintf(b, `<text x="%.1f" y="%.1f" font-size="10">+%d<title>%d more pages here</title></text>`+"\n", at[spot]+marker+3, mid+4, more, more)
+		}
+	}
+	fmt.Fprintf(b, `<text x="%d" y="%.1f" font-size="11">%s</text></g>`+"\n", c.plotX+c.plotW+noDateW+8, mid+4, esc(counts(r.Pages)))
+}
+
+// tooltip is a marker's title: the page, its status and age.
+func tooltip(p Page, st Status) string {
+	switch {
+	case p.Title == "":
+		return ""
+	case st == Unknown:
+		return p.Title + ": no date"
+	case p.AgeDays < 0:
+		return fmt.Sprintf("%s: %s, no date", p.Title, labels[st])
+	}
+	return fmt.Sprintf("%s: %s, %d days", p.Title, labels[st], p.AgeDays)
 }
 
 // legend draws one shape and label per status along the top.

@@ -197,3 +197,30 @@ func TestSVGFixedEnd(t *testing.T) {
 		t.Error(`"+" on an axis that holds every page`)
 	}
 }
+
+// Eleven pages of one age show as three markers, the first three given,
+// and a "+8"; the counts still name all eleven.
+func TestSVGPile(t *testing.T) {
+	var pages []agechart.Page
+	for i := range 11 {
+		st := agechart.Fresh
+		if i == 0 {
+			st = agechart.Stale
+		}
+		pages = append(pages, agechart.Page{AgeDays: 11, Status: st})
+	}
+	got := agechart.SVG([]agechart.Row{{Owner: "ferries", Pages: pages}}, agechart.Options{})
+	wellFormed(t, got)
+	band := got[strings.Index(got, "<g>"):]
+	if n := strings.Count(band, "<circle") + strings.Count(band, "<rect"); n != 3 {
+		t.Errorf("%d markers in the band, want 3", n)
+	}
+	if !strings.Contains(band, "<rect") {
+		t.Error("the first page given (stale) is not drawn")
+	}
+	for _, want := range []string{">+8<title>8 more pages here</title></text>", ">1 stale, 10 fresh</text>"} {
+		if !strings.Contains(band, want) {
+			t.Errorf("band lacks %q", want)
+		}
+	}
+}

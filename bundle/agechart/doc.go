@@ -9,8 +9,10 @@
 // (since it was last updated) and a [Status]. The chart has one band per
 // row, in the order given (the caller sorts), with one marker per page
 // placed by age on a shared day axis; pages without a date ([Unknown], or
-// a negative age) sit in a "no date" column at the right. Beside each band
-// the counts per status are written out ("2 stale, 5 fresh").
+// a negative age) sit in a "no date" column at the right. Pages that land
+// on one spot are stacked, up to three, in the order given; the rest are
+// counted in a "+N" beside them. Beside each band the counts per status
+// are written out ("2 stale, 5 fresh").
 //
 // # Reading it without colour
 //

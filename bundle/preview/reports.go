@@ -299,8 +299,8 @@ func (s *Server) duplicatesView(h *handle) (*duplicatesView, string) {
 			v.MoreDivergent = len(r.Divergent) - maxDivergentShown
 			break
 		}
-		a, okA := side(d.Canonical)
-		b, okB := side(d.Copy)
+		a, okA := side(d.Canonical.Location)
+		b, okB := side(d.Copy.Location)
 		if !okA || !okB {
 			v.Hidden++
 			continue

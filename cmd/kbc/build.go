@@ -502,28 +502,7 @@ func upToDate(out, src string, dir *sources.Dir, inputs string, walked []sources
 }
 
 // reportFiles renders a build's reports as bundle files.
-func reportFiles(res *build.Result) (map[string][]byte, error) {
-	files := map[string][]byte{
-		bundle.StalenessMarkdown: bundle.RenderStaleness(res.Staleness),
-		bundle.DuplicatesMD:      bundle.RenderDuplicates(res.Duplicates),
-		bundle.BoilerplateMD:     bundle.RenderBoilerplate(res.Boilerplate),
-		bundle.SecretsMD:         bundle.RenderSecrets(res.Secrets),
-		bundle.HiddenMD:          bundle.RenderHidden(res.Hidden),
-	}
-	boiler := res.Boilerplate
-	if boiler == nil {
-		boiler = []build.BoilerplateEntry{}
-	}
-	for name, v := range map[string]any{bundle.StalenessJSON: res.Staleness, bundle.DuplicatesJSON: res.Duplicates, bundle.BoilerplateJSON: boiler,
-		bundle.SecretsJSON: res.Secrets, bundle.HiddenJSON: res.Hidden} {
-		data, err := bundle.MarshalReport(v)
-		if err != nil {
-			return nil, fmt.Errorf("%s: %v", name, err)
-		}
-		files[name] = data
-	}
-	return files, nil
-}
+func reportFiles(res *build.Result) (map[string][]byte, error) { return bundle.ReportFiles(res) }
 
 // summary is what build prints when it is done.
 type summary struct {

@@ -91,7 +91,7 @@ func TestExampleGolden(t *testing.T) {
 		"manifest.json":  stableManifest(t, out),
 	}
 	for _, r := range []string{bundle.StalenessJSON, bundle.StalenessMarkdown, bundle.DuplicatesJSON, bundle.DuplicatesMD, bundle.BoilerplateJSON, bundle.BoilerplateMD,
-		bundle.SecretsJSON, bundle.SecretsMD, bundle.HiddenJSON, bundle.HiddenMD} {
+		bundle.SecretsJSON, bundle.SecretsMD, bundle.HiddenJSON, bundle.HiddenMD, bundle.ReportsHTML} {
 		files[r] = mustRead(t, filepath.Join(out, filepath.FromSlash(r)))
 	}
 	for name, got := range files {
