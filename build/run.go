@@ -46,6 +46,10 @@ type Options struct {
 	// while the split settings and the page's boilerplate are the same)
 	// and updates the rest. It must fit the tool version (Cache.Fits).
 	Cache *Cache
+	// Walked, when set, is the listing of fsys made with Walk (for the
+	// same Walk options): Run builds those files instead of walking the
+	// tree again.
+	Walked *Walked
 }
 
 // DefaultOptions returns options with DefaultSettings and the default walk.
@@ -136,7 +140,12 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 		gitc <- gitResult{d, err}
 	}()
 
-	files, walkErrs := sources.Walk(fsys, opts.Walk)
+	walked := opts.Walked
+	if walked == nil {
+		walked = Walk(fsys, opts)
+	}
+	// Run appends to its own copies: the caller's listing stays as it is.
+	files, walkErrs := slices.Clone(walked.Files), slices.Clone(walked.Problems)
 	res := &Result{Problems: walkErrs}
 	res.Stats.Files = len(files) + len(walkErrs)
 

@@ -9,6 +9,7 @@ import (
 	"time"
 
 	"github.com/kbc-project/kbc/build"
+	"github.com/kbc-project/kbc/build/fresh"
 	"github.com/kbc-project/kbc/bundle"
 )
 
@@ -145,7 +146,7 @@ func buildBundle(t testing.TB, src, out string) *bundle.Manifest {
 		t.Logf("build warning: %v", p)
 	}
 	m, err := bundle.Write(out, &bundle.Input{Passages: res.Passages, BuiltAt: testNow, Tool: "kbc test",
-		Settings: map[string]any{"freshness": map[string]any{"due_soon": "30d"}}})
+		Settings: &bundle.Settings{Freshness: fresh.Policy{DueSoon: fresh.Duration{Days: 30}}}})
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -14,6 +14,7 @@ import (
 	"golang.org/x/net/netutil"
 
 	"github.com/kbc-project/kbc/build"
+	"github.com/kbc-project/kbc/bundle/compile"
 	"github.com/kbc-project/kbc/bundle/preview"
 	"github.com/kbc-project/kbc/watch"
 )
@@ -31,7 +32,9 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 			"changes, after a quiet period. After each rebuild it prints one line: time taken,\n"+
 			"passages added, changed and removed, new warnings, and changes in stale pages and\n"+
 			"divergent copies. A page that does not parse while being edited is named with its\n"+
-			"path:line and the last good bundle stays. Ctrl-C stops it; the last complete\n"+
+			"path:line and the last good bundle stays. The checks (--max-stale and the\n"+
+			"others, or [checks] in the config) run after every rebuild: each failure is\n"+
+			"printed on stderr and watching goes on. Ctrl-C stops it; the last complete\n"+
 			"bundle is left in OUT.",
 		"kbc watch docs -o /tmp/docs-bundle --debounce 300ms", stderr)
 	out := addOutFlag(fs)
@@ -82,10 +85,18 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 	}
 	defer w.Close()
 
+	cfg, code := sf.configFor(src, stderr)
+	if code >= 0 {
+		return code
+	}
 	// The build cache stays in memory between rebuilds and is saved once,
 	// when watching stops.
-	sess := &session{out: *out, watch: true}
-	defer sess.saveCache(stderr)
+	sess := &compile.Session{}
+	defer func() {
+		if err := sess.Save(*out); err != nil {
+			fmt.Fprintf(stderr, "kbc: could not save the build cache: %v\n", err)
+		}
+	}()
 	var last *build.Result
 	var pv *preview.Server // the live preview, when serving
 	seen := map[string]bool{}
@@ -96,25 +107,29 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 			fmt.Fprintf(stderr, "kbc watch: %v\n", err)
 			return
 		}
-		res, opts, _, code := compile(ctx, fs, sf, src, sess, now, stderr)
-		if code >= 0 {
-			return // compile said why; the last good bundle stays
-		}
+		// The config is read once, when watching starts: an edit to it
+		// takes a restart (the file may lie outside SRC, unwatched).
+		bar := newProgress(stderr)
+		r, err := compile.Build(ctx, compile.Job{Src: src, Out: *out, Config: cfg, Now: now, FixedTime: os.Getenv("SOURCE_DATE_EPOCH") != "",
+			Tool: "kbc " + version, Force: true, Session: sess, Progress: bar.update, Warn: warnTo(stderr)})
+		bar.finish()
 		fresh := 0
-		for _, p := range res.Problems {
-			if !seen[p.Error()] {
-				seen[p.Error()] = true
-				fresh++
-				fmt.Fprintln(stderr, p.Error())
+		if r != nil {
+			for _, p := range r.Problems {
+				if !seen[p] {
+					seen[p] = true
+					fresh++
+					fmt.Fprintln(stderr, p)
+				}
 			}
 		}
-		m, delta, err := writeBundle(sess, src, res, opts, now, stderr)
 		if err != nil {
 			fmt.Fprintf(stderr, "kbc watch: %v (the last good bundle stays)\n", err)
 			return
 		}
+		res, delta := r.Build, r.Delta
 		line := fmt.Sprintf("%s rebuilt in %.2fs: %d added, %d changed, %d removed; %d new warning(s); bundle %.12s",
-			time.Now().Format("15:04:05"), time.Since(start).Seconds(), len(delta.Added), len(delta.Changed), len(delta.Removed), fresh, m.BundleID)
+			time.Now().Format("15:04:05"), time.Since(start).Seconds(), len(delta.Added), len(delta.Changed), len(delta.Removed), fresh, r.BundleID)
 		if last != nil {
 			if d := res.Stats.Stale - last.Stats.Stale; d != 0 {
 				line += fmt.Sprintf("; stale %+d (now %d)", d, res.Stats.Stale)
@@ -124,6 +139,9 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 			}
 		}
 		fmt.Fprintln(stdout, line)
+		for _, f := range r.Failures {
+			fmt.Fprintf(stderr, "kbc watch: %s\n", f.Msg)
+		}
 		last = res
 		if pv != nil {
 			if err := pv.Reload(*out); err != nil {
