@@ -390,7 +390,8 @@ func listEntries(entries []fs.DirEntry) string {
 	return strings.Join(names, ", ")
 }
 
-// sortedOrder returns the indexes of ps ordered by path and line. Ties
+// sortedOrder returns the indexes of ps in passage order
+// (build.ComparePassages: by path and line). Ties
 // keep the order of ps, which build.Run gives in reading order: the parts
 // of a one-line paragraph must not be shuffled by their ids.
 func sortedOrder(ps []build.Passage) []int {
@@ -398,13 +399,7 @@ func sortedOrder(ps []build.Passage) []int {
 	for i := range order {
 		order[i] = i
 	}
-	slices.SortStableFunc(order, func(a, b int) int {
-		pa, pb := &ps[a], &ps[b]
-		if c := strings.Compare(pa.Path, pb.Path); c != 0 {
-			return c
-		}
-		return pa.Line - pb.Line
-	})
+	slices.SortStableFunc(order, func(a, b int) int { return build.ComparePassages(&ps[a], &ps[b]) })
 	return order
 }
 
