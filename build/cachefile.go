@@ -18,6 +18,7 @@ import (
 
 	"github.com/kbc-project/kbc/build/dedupe"
 	"github.com/kbc-project/kbc/build/fresh"
+	"github.com/kbc-project/kbc/internal/atomicfile"
 )
 
 // The build cache on disk is a folder of files, so that a rebuild after one
@@ -167,7 +168,7 @@ func (c *Cache) Save(dir string) error {
 		wg.Go(func() {
 			paths := groups[i]
 			sort.Strings(paths)
-			errs[i] = writeCacheFile(filepath.Join(dir, shardFile(i)), c.key, len(paths), func(enc *gob.Encoder) error {
+			errs[i] = encodeCacheFile(filepath.Join(dir, shardFile(i)), c.key, len(paths), func(enc *gob.Encoder) error {
 				for _, p := range paths {
 					if err := enc.Encode(cacheRecord{Path: p, Entry: c.entries[p]}); err != nil {
 						return fmt.Errorf("%s: %v", p, err)
@@ -205,16 +206,16 @@ func (c *Cache) saveState(dir string) error {
 		}
 		st.Memos[i] = data
 	}
-	return writeCacheFile(filepath.Join(dir, stateFile), c.key, 1, func(enc *gob.Encoder) error {
+	return encodeCacheFile(filepath.Join(dir, stateFile), c.key, 1, func(enc *gob.Encoder) error {
 		return enc.Encode(&st)
 	})
 }
 
-// writeCacheFile writes one cache file atomically: the header, the records
+// encodeCacheFile writes one cache file atomically: the header, the records
 // body encodes, and the checksum. The data is not flushed to disk first,
 // unlike a bundle's: after a crash a cache file may be torn, and the
 // checksum then rejects it, which costs one full build.
-func writeCacheFile(name, key string, count int, body func(*gob.Encoder) error) error {
+func encodeCacheFile(name, key string, count int, body func(*gob.Encoder) error) error {
 	var buf bytes.Buffer
 	enc := gob.NewEncoder(&buf)
 	if err := enc.Encode(cacheHeader{Layout: cacheLayout, Key: key, Count: count}); err != nil {
@@ -224,19 +225,7 @@ func writeCacheFile(name, key string, count int, body func(*gob.Encoder) error) 
 		return fmt.Errorf("encoding the build cache: %v", err)
 	}
 	buf.Write(binary.LittleEndian.AppendUint32(nil, crc32.Checksum(buf.Bytes(), castagnoli)))
-	tmp, err := os.CreateTemp(filepath.Dir(name), "."+filepath.Base(name)+".tmp-*")
-	if err != nil {
-		return err
-	}
-	defer os.Remove(tmp.Name())
-	if _, err := tmp.Write(buf.Bytes()); err != nil {
-		tmp.Close()
-		return err
-	}
-	if err := tmp.Close(); err != nil {
-		return err
-	}
-	return os.Rename(tmp.Name(), name)
+	return atomicfile.WriteFile(name, buf.Bytes(), atomicfile.NoFlush)
 }
 
 // readCacheFile checks a cache file's checksum and header and returns a

@@ -3,6 +3,8 @@ package bundle
 import (
 	"os"
 	"path/filepath"
+
+	"github.com/kbc-project/kbc/internal/atomicfile"
 )
 
 // CacheDir returns the build cache folder of the bundle folder out: a
@@ -24,17 +26,5 @@ func writeCacheFile(out, name string, data []byte) error {
 	if err := os.MkdirAll(dir, 0o755); err != nil {
 		return err
 	}
-	tmp, err := os.CreateTemp(dir, "."+name+".tmp-*")
-	if err != nil {
-		return err
-	}
-	defer os.Remove(tmp.Name())
-	if _, err := tmp.Write(data); err != nil {
-		tmp.Close()
-		return err
-	}
-	if err := tmp.Close(); err != nil {
-		return err
-	}
-	return os.Rename(tmp.Name(), filepath.Join(dir, name))
+	return atomicfile.WriteFile(filepath.Join(dir, name), data, atomicfile.NoFlush)
 }
