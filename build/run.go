@@ -321,7 +321,7 @@ func boilerplateStage(ds *docSet, s Settings) *Boilerplate {
 
 // splitStage strips the boilerplate from each document and splits it into
 // passages on workers goroutines (or takes its passages from the cache),
-// stamps each passage with its document's freshness, and returns them all
+// copies its document's freshness onto each passage, and returns them all
 // in passage order (SortPassages). A document that can no longer be read
 // goes to res.Problems.
 func splitStage(ctx context.Context, ds *docSet, infos []fresh.Info, bp *Boilerplate, tok *Tokenizer, s Settings, workers int, res *Result) ([]Passage, error) {

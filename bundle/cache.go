@@ -10,8 +10,9 @@ import (
 // CacheDir returns the build cache folder of the bundle folder out: a
 // sibling named OUT.cache, never inside the bundle, so the bundle's files
 // and hashes do not depend on what was cached. It holds the build cache
-// (build.LoadCache, build.Cache.Save), the stamp of the last build
-// (WriteStamp) and the catalog of the bundle's passages (Input.Catalog).
+// (build.LoadCache, build.Cache.Save), the record of the inputs of the
+// last build (package bundle/compile) and the catalog of the bundle's
+// passages (Input.Catalog).
 func CacheDir(out string) string {
 	return filepath.Clean(out) + ".cache"
 }

@@ -2,12 +2,9 @@ package compile
 
 import (
 	"context"
-	"crypto/sha256"
-	"encoding/hex"
 	"encoding/json"
 	"errors"
 	"fmt"
-	"io/fs"
 	"os"
 	"path/filepath"
 	"time"
@@ -268,60 +265,4 @@ func ReportFiles(res *build.Result) (map[string][]byte, error) {
 		files[name] = data
 	}
 	return files, nil
-}
-
-// record writes, beside the bundle, the inputs it was built from
-// (bundle.Stamp), for the next build's up-to-date check.
-func record(out, inputs string, looked time.Time, m *bundle.Manifest, r *Result, walked *build.Walked, cache *build.Cache) error {
-	data, err := json.Marshal(r.Summary)
-	if err != nil {
-		return err
-	}
-	st := &bundle.Stamp{Inputs: inputs, Read: looked, BundleID: m.BundleID, Manifest: bundle.ManifestHash(out), Summary: data, Problems: r.Problems}
-	for _, f := range build.Racy(walked.Files, looked) {
-		if h := cache.FileHash(f.Path); h != "" {
-			if st.Racy == nil {
-				st.Racy = map[string]string{}
-			}
-			st.Racy[f.Path] = h
-		}
-	}
-	return bundle.WriteStamp(out, st)
-}
-
-// upToDate returns the result for a bundle in job.Out built from exactly
-// these inputs that still matches its manifest: the earlier build's
-// summary and problems, no passage added, changed or removed, and the
-// checks run on the bundle's reports judged at now. Files changed within
-// a second of the last look are not trusted by their size and time alone:
-// their bytes must be those the last build read (Stamp.Racy), or the
-// build runs.
-func upToDate(job Job, cfg *Config, dir *sources.Dir, inputs string, walked *build.Walked, now time.Time) (*Result, bool) {
-	out := job.Out
-	st := bundle.ReadStamp(out)
-	if st == nil || st.Inputs != inputs || bundle.ManifestHash(out) != st.Manifest {
-		return nil, false
-	}
-	for _, f := range build.Racy(walked.Files, st.Read) {
-		data, err := fs.ReadFile(dir, f.Target)
-		sum := sha256.Sum256(data)
-		if err != nil || st.Racy[f.Path] != hex.EncodeToString(sum[:]) {
-			return nil, false
-		}
-	}
-	if bad, err := bundle.Verify(out); err != nil || len(bad) > 0 {
-		return nil, false
-	}
-	r := &Result{UpToDate: true, BundleID: st.BundleID, Problems: st.Problems}
-	if json.Unmarshal(st.Summary, &r.Summary) != nil {
-		return nil, false
-	}
-	reps, err := ReadReports(out)
-	if err != nil {
-		return nil, false
-	}
-	reps.Staleness = reps.Staleness.At(now)
-	r.Summary.Staleness = reps.Staleness.Counts
-	r.Failures = cfg.Checks.Evaluate(reps.CheckInput())
-	return r, true
 }

@@ -34,7 +34,7 @@ func TestManifestSameOnAnyCoreCount(t *testing.T) {
 
 // TestCacheKeyedOnBinary: a build cache made by a different kbc binary
 // that carries the same version string (a changed normaliser, no version
-// bump) is not trusted, and neither is its up-to-date stamp.
+// bump) is not trusted, and neither is its record of inputs.
 func TestCacheKeyedOnBinary(t *testing.T) {
 	if build.BinaryID() == "" {
 		t.Fatalf("no binary ID: the cache key would be the version string alone")
