@@ -139,7 +139,7 @@ func (w *walker) file(p, target string, info fs.FileInfo) {
 		return
 	}
 	if info.Size() > w.opts.MaxSize {
-		w.fail(p, "file is %s, over the %s size limit; skipped", sizeString(info.Size()), sizeString(w.opts.MaxSize))
+		w.fail(p, "file is %s, over the %s size limit; skipped", SizeString(info.Size()), SizeString(w.opts.MaxSize))
 		return
 	}
 	w.files = append(w.files, File{Path: p, Target: target, Size: info.Size(), ModTime: info.ModTime()})
@@ -371,7 +371,7 @@ func ReadFile(fsys fs.FS, f File, maxSize int64) ([]byte, *Error) {
 		return nil, &Error{Path: f.Path, Msg: fmt.Sprintf("cannot read: %v", UnwrapPath(err)), Err: err}
 	}
 	if int64(len(data)) > maxSize {
-		return nil, &Error{Path: f.Path, Msg: fmt.Sprintf("file is over the %s size limit; skipped", sizeString(maxSize))}
+		return nil, &Error{Path: f.Path, Msg: fmt.Sprintf("file is over the %s size limit; skipped", SizeString(maxSize))}
 	}
 	return data, nil
 }
@@ -403,12 +403,14 @@ func UnwrapPath(err error) error {
 	return err
 }
 
-func sizeString(n int64) string {
+// SizeString writes a byte count for people, in the units ParseSize and
+// --max-file-size read back: "512 B", "2.0 kB", "10.0 MB" (1 kB = 1024 B).
+func SizeString(n int64) string {
 	switch {
 	case n >= 1<<20:
 		return fmt.Sprintf("%.1f MB", float64(n)/(1<<20))
 	case n >= 1<<10:
 		return fmt.Sprintf("%.1f kB", float64(n)/(1<<10))
 	}
-	return fmt.Sprintf("%d bytes", n)
+	return fmt.Sprintf("%d B", n)
 }

@@ -282,7 +282,7 @@ func (s summary) print(w io.Writer) {
 	} else {
 		fmt.Fprintf(w, "built %s -> %s\n", s.Source, s.Out)
 	}
-	fmt.Fprintf(w, "  documents    %d read, %d skipped (%s)", st.Documents, st.Skipped, sizeString(st.SourceBytes))
+	fmt.Fprintf(w, "  documents    %d read, %d skipped (%s)", st.Documents, st.Skipped, sources.SizeString(st.SourceBytes))
 	if st.Reused > 0 {
 		fmt.Fprintf(w, "; %d unchanged, taken from the cache", st.Reused)
 	}
@@ -325,14 +325,4 @@ func buildTime(epoch string, now func() time.Time) (time.Time, error) {
 		return time.Time{}, fmt.Errorf("SOURCE_DATE_EPOCH=%q is not a whole number of seconds since 1970-01-01", epoch)
 	}
 	return time.Unix(n, 0).UTC(), nil
-}
-
-func sizeString(n int64) string {
-	switch {
-	case n >= 1<<20:
-		return fmt.Sprintf("%.1f MB", float64(n)/(1<<20))
-	case n >= 1<<10:
-		return fmt.Sprintf("%.1f kB", float64(n)/(1<<10))
-	}
-	return fmt.Sprintf("%d B", n)
 }

@@ -14,6 +14,7 @@ import (
 	"github.com/kbc-project/kbc/bundle"
 	"github.com/kbc-project/kbc/bundle/store"
 	"github.com/kbc-project/kbc/internal/printable"
+	"github.com/kbc-project/kbc/sources"
 )
 
 // storeKinds is the part of every store command's help that names the stores.
@@ -89,7 +90,7 @@ func runPublish(args []string, stdout, stderr io.Writer) int {
 		return exitFailure
 	}
 	fmt.Fprintf(stdout, "published %s to %s\n", res.BundleID, s)
-	fmt.Fprintf(stdout, "  objects   %d uploaded (%s), %d already there\n", res.Uploaded, sizeString(res.UploadedBytes), res.Skipped)
+	fmt.Fprintf(stdout, "  objects   %d uploaded (%s), %d already there\n", res.Uploaded, sources.SizeString(res.UploadedBytes), res.Skipped)
 	if res.FilesDigest != "" {
 		fmt.Fprintf(stdout, "  digest    %s (kbc pull --digest pins every file)\n", res.FilesDigest)
 	}
