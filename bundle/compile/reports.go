@@ -7,6 +7,7 @@ import (
 	"io/fs"
 	"os"
 	"path/filepath"
+	"time"
 
 	"github.com/kbc-project/kbc/build"
 	"github.com/kbc-project/kbc/bundle"
@@ -68,4 +69,30 @@ func BundleChecks(dir string) (build.Checks, error) {
 		return build.Checks{}, err
 	}
 	return s.Checks, nil
+}
+
+// ErrNoSecretsReport is returned by Judge when the secrets check is on
+// and the bundle has no secrets report (it was built before there was
+// one): it must be built again to be checked.
+var ErrNoSecretsReport = errors.New("no " + bundle.SecretsJSON + " (built by an older kbc): rebuild it to check for secrets")
+
+// Judge reads the reports of the bundle in dir, judges its staleness again
+// at now, and runs checks over them. Checks nil means those the bundle was
+// built with (BundleChecks).
+func Judge(dir string, now time.Time, checks *build.Checks) (*Reports, []build.CheckFailure, error) {
+	reps, err := ReadReports(dir)
+	if err != nil {
+		return nil, nil, err
+	}
+	reps.Staleness = reps.Staleness.At(now)
+	var c build.Checks
+	if checks != nil {
+		c = *checks
+	} else if c, err = BundleChecks(dir); err != nil {
+		return nil, nil, err
+	}
+	if c.FailOnSecrets && reps.Secrets < 0 {
+		return nil, nil, fmt.Errorf("bundle %s has %w", dir, ErrNoSecretsReport)
+	}
+	return reps, c.Evaluate(reps.CheckInput()), nil
 }

@@ -39,12 +39,11 @@ func runStale(args []string, stdout, stderr io.Writer) int {
 	var divergent int
 	var checks []build.CheckFailure
 	if _, err := os.Stat(filepath.Join(pos[0], bundle.ManifestFile)); err == nil {
-		reps, code := bundleReports(fs, sf, pos[0], now, stderr)
+		reps, failures, code := bundleReports(fs, sf, pos[0], now, stderr)
 		if code >= 0 {
 			return code
 		}
-		st, divergent = reps.reports.Staleness, reps.reports.Divergent
-		checks = reps.failures
+		st, divergent, checks = reps.Staleness, reps.Divergent, failures
 	} else {
 		cfg, code := sf.configFor(pos[0], stderr)
 		if code >= 0 {
@@ -79,42 +78,31 @@ func runStale(args []string, stdout, stderr io.Writer) int {
 	return printFailures(checks, stderr)
 }
 
-// judged is a bundle's reports judged again, and the failed checks.
-type judged struct {
-	reports  *compile.Reports
-	failures []build.CheckFailure
-}
-
-// bundleReports reads the reports of the bundle in dir, judges its
-// staleness again at now, and runs the checks the bundle was built with,
-// overridden by --config FILE when given and then by the check flags.
-func bundleReports(fs *flag.FlagSet, sf *sourceFlags, dir string, now time.Time, stderr io.Writer) (*judged, int) {
-	reps, err := compile.ReadReports(dir)
-	if err != nil {
-		fmt.Fprintf(stderr, "kbc stale: %v\n", err)
-		return nil, exitFailure
-	}
-	reps.Staleness = reps.Staleness.At(now)
+// bundleReports judges the bundle in dir again at now, with the checks
+// it was built with, overridden by --config FILE when given and then by
+// the check flags.
+func bundleReports(fs *flag.FlagSet, sf *sourceFlags, dir string, now time.Time, stderr io.Writer) (*compile.Reports, []build.CheckFailure, int) {
 	checks, err := compile.BundleChecks(dir)
 	if err != nil {
 		fmt.Fprintf(stderr, "kbc stale: %v\n", err)
-		return nil, exitFailure
+		return nil, nil, exitFailure
 	}
 	if sf.config != "" {
 		cfg, err := compile.LoadConfig(dir, sf.config)
 		if err != nil {
 			fmt.Fprintf(stderr, "kbc stale: %v\n", err)
-			return nil, exitUsage
+			return nil, nil, exitUsage
 		}
 		fmt.Fprintf(stderr, "kbc: config %s\n", cfg.Path)
 		checks = cfg.Checks
 	}
 	if err := sf.applyChecks(&checks); err != nil {
-		return nil, badUsage(fs, stderr, "%v", err)
+		return nil, nil, badUsage(fs, stderr, "%v", err)
 	}
-	if checks.FailOnSecrets && reps.Secrets < 0 {
-		fmt.Fprintf(stderr, "kbc stale: bundle %s has no %s (built by an older kbc): rebuild it to check for secrets\n", dir, bundle.SecretsJSON)
-		return nil, exitFailure
+	reps, failures, err := compile.Judge(dir, now, &checks)
+	if err != nil {
+		fmt.Fprintf(stderr, "kbc stale: %v\n", err)
+		return nil, nil, exitFailure
 	}
-	return &judged{reports: reps, failures: checks.Evaluate(reps.CheckInput())}, -1
+	return reps, failures, -1
 }
