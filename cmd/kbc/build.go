@@ -84,7 +84,7 @@ func (sf *sourceFlags) configFor(src string, stderr io.Writer) (*compile.Config,
 		}
 		return nil, badUsage(sf.fs, stderr, "source %s: %v", src, sources.UnwrapPath(err))
 	}
-	cfg, err := compile.LoadConfig(src, sf.config)
+	cfg, err := sf.load(src)
 	if err != nil {
 		var pe *sources.Error
 		if errors.As(err, &pe) {
@@ -99,10 +99,17 @@ func (sf *sourceFlags) configFor(src string, stderr io.Writer) (*compile.Config,
 	for _, n := range cfg.Notes {
 		fmt.Fprintf(stderr, "kbc: %s\n", n)
 	}
-	if err := sf.apply(cfg); err != nil {
-		return nil, badUsage(sf.fs, stderr, "%v", err)
-	}
 	return cfg, -1
+}
+
+// load loads the configuration for src and applies the flags over it,
+// printing nothing. Errors in the file are *sources.Error.
+func (sf *sourceFlags) load(src string) (*compile.Config, error) {
+	cfg, err := compile.LoadConfig(src, sf.config)
+	if err != nil {
+		return nil, err
+	}
+	return cfg, sf.apply(cfg)
 }
 
 // apply sets the options and checks the flags given on the command line

@@ -34,7 +34,8 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 			"divergent copies. A page that does not parse while being edited is named with its\n"+
 			"path:line and the last good bundle stays. The checks (--max-stale and the\n"+
 			"others, or [checks] in the config) run after every rebuild: each failure is\n"+
-			"printed on stderr and watching goes on. Ctrl-C stops it; the last complete\n"+
+			"printed on stderr and watching goes on. The config file is read again for each\n"+
+			"rebuild. Ctrl-C stops it; the last complete\n"+
 			"bundle is left in OUT.",
 		"kbc watch docs -o /tmp/docs-bundle --debounce 300ms", stderr)
 	out := addOutFlag(fs)
@@ -100,6 +101,7 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 	var last *build.Result
 	var pv *preview.Server // the live preview, when serving
 	seen := map[string]bool{}
+	reload := false // the first build uses the config read above
 	rebuild := func(ctx context.Context) {
 		start := time.Now()
 		now, err := buildTime(os.Getenv("SOURCE_DATE_EPOCH"), time.Now)
@@ -107,8 +109,16 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 			fmt.Fprintf(stderr, "kbc watch: %v\n", err)
 			return
 		}
-		// The config is read once, when watching starts: an edit to it
-		// takes a restart (the file may lie outside SRC, unwatched).
+		// The config is read again for each rebuild, so an edit to a
+		// kbc.toml inside SRC applies at once (one outside SRC is not
+		// watched: its edits apply with the next change in SRC).
+		if reload {
+			if cfg, err = sf.load(src); err != nil {
+				fmt.Fprintf(stderr, "kbc watch: %v (the last good bundle stays)\n", err)
+				return
+			}
+		}
+		reload = true
 		bar := newProgress(stderr)
 		r, err := compile.Build(ctx, compile.Job{Src: src, Out: *out, Config: cfg, Now: now, FixedTime: os.Getenv("SOURCE_DATE_EPOCH") != "",
 			Tool: "kbc " + version, Force: true, Session: sess, Progress: bar.update, Warn: warnTo(stderr)})
