@@ -104,8 +104,10 @@ func Build(ctx context.Context, job Job) (*Result, error) {
 	defer dir.Close()
 	opts := cfg.Options
 	commit, dirty := build.SourceCommit(ctx, job.Src)
-	walked := build.Walk(dir, opts)
+	// Taken before the walk: a file changed while the tree is listed is
+	// then within the racy window of the record (see upToDate).
 	looked := time.Now()
+	walked := build.Walk(dir, opts)
 	checks, _ := json.Marshal(cfg.Checks)
 	extra := fmt.Sprintf("%s\x00%s %t\x00%t %d\x00%s", job.toolKey(), commit, dirty, job.FixedTime, now.Unix()*boolInt(job.FixedTime), checks)
 	inputs := build.InputsDigest(walked, opts, extra)
