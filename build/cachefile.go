@@ -1,12 +1,9 @@
 package build
 
 import (
-	"bytes"
-	"encoding/binary"
 	"encoding/gob"
 	"errors"
 	"fmt"
-	"hash/crc32"
 	"io/fs"
 	"os"
 	"path/filepath"
@@ -16,6 +13,7 @@ import (
 
 	"github.com/cespare/xxhash/v2"
 
+	"github.com/kbc-project/kbc/build/buildcache"
 	"github.com/kbc-project/kbc/build/dedupe"
 	"github.com/kbc-project/kbc/build/fresh"
 )
@@ -26,10 +24,10 @@ import (
 //	entries-00.gob ... entries-0f.gob  the entries, spread by a hash of their path
 //	state.gob                          the duplicate stage's outcome and hashing memos, the git dates
 //
-// Each file is a gob stream (a header, then its records) followed by the
-// stream's CRC-32C in 4 little-endian bytes: a torn or altered file is
-// found out before anything in it is used. Every header carries the
-// layout version and the cache key, and all files must agree on them.
+// Each file is in the format of package buildcache (a gob stream with a
+// header, its records and a CRC-32C): a torn or altered file is found out
+// before anything in it is used. Every header carries the layout version
+// and the cache key, and all files must agree on them.
 const (
 	cacheLayout = 5 // 4: documents carry their hidden text, secrets and lints; 5: blocks carry defined terms (Block.Anchor), passages their Terms
 	cacheShards = 16
@@ -39,13 +37,6 @@ const (
 func shardFile(i int) string { return fmt.Sprintf("entries-%02x.gob", i) }
 
 func shardOf(path string) int { return int(xxhash.Sum64String(path) % cacheShards) }
-
-// cacheHeader starts every cache file.
-type cacheHeader struct {
-	Layout int
-	Key    string
-	Count  int // records after the header: entries, or 1 for the state
-}
 
 // cacheRecord is one entry of a shard file.
 type cacheRecord struct {
@@ -59,8 +50,6 @@ type cacheState struct {
 	Memos  [3][]byte // dedupe.Memo.MarshalBinary, real and masked texts, masked blocks; nil: none
 	Git    *fresh.GitHistory
 }
-
-var castagnoli = crc32.MakeTable(crc32.Castagnoli)
 
 // ErrNoCache is returned by LoadCache for a folder that holds no cache.
 var ErrNoCache = errors.New("no build cache")
@@ -167,7 +156,7 @@ func (c *Cache) Save(dir string) error {
 		wg.Go(func() {
 			paths := groups[i]
 			sort.Strings(paths)
-			errs[i] = writeCacheFile(filepath.Join(dir, shardFile(i)), c.key, len(paths), func(enc *gob.Encoder) error {
+			errs[i] = encodeCacheFile(filepath.Join(dir, shardFile(i)), c.key, len(paths), func(enc *gob.Encoder) error {
 				for _, p := range paths {
 					if err := enc.Encode(cacheRecord{Path: p, Entry: c.entries[p]}); err != nil {
 						return fmt.Errorf("%s: %v", p, err)
@@ -205,67 +194,15 @@ func (c *Cache) saveState(dir string) error {
 		}
 		st.Memos[i] = data
 	}
-	return writeCacheFile(filepath.Join(dir, stateFile), c.key, 1, func(enc *gob.Encoder) error {
+	return encodeCacheFile(filepath.Join(dir, stateFile), c.key, 1, func(enc *gob.Encoder) error {
 		return enc.Encode(&st)
 	})
 }
 
-// writeCacheFile writes one cache file atomically: the header, the records
-// body encodes, and the checksum. The data is not flushed to disk first,
-// unlike a bundle's: after a crash a cache file may be torn, and the
-// checksum then rejects it, which costs one full build.
-func writeCacheFile(name, key string, count int, body func(*gob.Encoder) error) error {
-	var buf bytes.Buffer
-	enc := gob.NewEncoder(&buf)
-	if err := enc.Encode(cacheHeader{Layout: cacheLayout, Key: key, Count: count}); err != nil {
-		return err
-	}
-	if err := body(enc); err != nil {
-		return fmt.Errorf("encoding the build cache: %v", err)
-	}
-	buf.Write(binary.LittleEndian.AppendUint32(nil, crc32.Checksum(buf.Bytes(), castagnoli)))
-	tmp, err := os.CreateTemp(filepath.Dir(name), "."+filepath.Base(name)+".tmp-*")
-	if err != nil {
-		return err
-	}
-	defer os.Remove(tmp.Name())
-	if _, err := tmp.Write(buf.Bytes()); err != nil {
-		tmp.Close()
-		return err
-	}
-	if err := tmp.Close(); err != nil {
-		return err
-	}
-	return os.Rename(tmp.Name(), name)
-}
-
-// readCacheFile checks a cache file's checksum and header and returns a
-// decoder positioned at its first record.
-func readCacheFile(name string) (*gob.Decoder, cacheHeader, error) {
-	data, err := os.ReadFile(name)
-	if err != nil {
-		return nil, cacheHeader{}, err
-	}
-	return openCacheData(name, data)
-}
-
-// openCacheData is readCacheFile on the bytes of the file name.
-func openCacheData(name string, data []byte) (*gob.Decoder, cacheHeader, error) {
-	var h cacheHeader
-	if len(data) < 4 || crc32.Checksum(data[:len(data)-4], castagnoli) != binary.LittleEndian.Uint32(data[len(data)-4:]) {
-		return nil, h, fmt.Errorf("%s: checksum mismatch (torn or altered)", name)
-	}
-	dec := gob.NewDecoder(bytes.NewReader(data[:len(data)-4]))
-	if err := dec.Decode(&h); err != nil {
-		return nil, h, fmt.Errorf("%s: %v", name, err)
-	}
-	if h.Layout != cacheLayout {
-		return nil, h, fmt.Errorf("%s: cache layout %d, want %d", name, h.Layout, cacheLayout)
-	}
-	if h.Count < 0 {
-		return nil, h, fmt.Errorf("%s: %d records", name, h.Count)
-	}
-	return dec, h, nil
+// encodeCacheFile writes one cache file (buildcache.Write): count records,
+// which body encodes, under a header with the layout and key.
+func encodeCacheFile(name, key string, count int, body func(*gob.Encoder) error) error {
+	return buildcache.Write(name, buildcache.Header{Layout: cacheLayout, Key: key, Count: count}, body)
 }
 
 func readShard(name string) (map[string]*CacheEntry, string, error) {
@@ -278,7 +215,7 @@ func readShard(name string) (map[string]*CacheEntry, string, error) {
 
 // decodeShard decodes the bytes of the entry file name.
 func decodeShard(name string, data []byte) (map[string]*CacheEntry, string, error) {
-	dec, h, err := openCacheData(name, data)
+	dec, h, err := buildcache.Open(name, data, cacheLayout)
 	if err != nil {
 		return nil, "", err
 	}
@@ -297,7 +234,7 @@ func decodeShard(name string, data []byte) (map[string]*CacheEntry, string, erro
 }
 
 func readState(name string) (*cacheState, string, error) {
-	dec, h, err := readCacheFile(name)
+	dec, h, err := buildcache.Read(name, cacheLayout)
 	if err != nil {
 		return nil, "", err
 	}

@@ -5,7 +5,6 @@ import (
 	"encoding/binary"
 	"errors"
 	"fmt"
-	"hash/crc32"
 	"os"
 	"path/filepath"
 	"reflect"
@@ -13,6 +12,8 @@ import (
 	"testing"
 	"testing/fstest"
 	"time"
+
+	"github.com/kbc-project/kbc/build/buildcache"
 )
 
 // cachedTree is a small docs tree with boilerplate, a duplicate pair and a
@@ -213,7 +214,7 @@ func FuzzReadShard(f *testing.F) {
 	}
 	f.Add(data[:len(data)-4])
 	f.Fuzz(func(t *testing.T, body []byte) {
-		sum := crc32.Checksum(body, castagnoli)
+		sum := buildcache.Checksum(body)
 		decodeShard("entries.gob", binary.LittleEndian.AppendUint32(append([]byte(nil), body...), sum))
 	})
 }

@@ -49,16 +49,27 @@ type Config struct {
 			MaxAge  string `toml:"max_age"`
 		} `toml:"max_age"`
 	} `toml:"freshness"`
-	Gates struct {
-		MaxStale        string `toml:"max_stale"`   // "N" documents or "N%"
-		MaxUnknown      string `toml:"max_unknown"` // "N" undated documents or "N%"
-		FailOnDivergent *bool  `toml:"fail_on_divergent"`
-		FailOnSecrets   *bool  `toml:"fail_on_secrets"`
-	} `toml:"gates"`
+	Checks CheckSection `toml:"checks"`
+	// Gates is the old name of the [checks] section, still read in this
+	// release (with a note in Notes); a key set in both takes [checks].
+	Gates CheckSection `toml:"gates"`
+
+	// Path is the file the config was read from, as errors name it.
+	Path string `toml:"-"`
+	// Notes are lines for the user about the file (a deprecated name).
+	Notes []string `toml:"-"`
 
 	// lines maps a dotted key ("freshness.due_soon") to its line, for
 	// errors about values that parse as TOML but make no sense.
 	lines map[string]int
+}
+
+// CheckSection is the [checks] section of the config file.
+type CheckSection struct {
+	MaxStale        string `toml:"max_stale"`   // "N" documents or "N%"
+	MaxUnknown      string `toml:"max_unknown"` // "N" undated documents or "N%"
+	FailOnDivergent *bool  `toml:"fail_on_divergent"`
+	FailOnSecrets   *bool  `toml:"fail_on_secrets"`
 }
 
 // LoadConfig reads ConfigFile from the root of fsys. A missing file gives
@@ -75,17 +86,23 @@ func LoadConfig(fsys fs.FS) (*Config, error) {
 	return ParseConfig(data)
 }
 
-// ParseConfig parses the text of a config file.
+// ParseConfig parses the text of a config file named ConfigFile.
+func ParseConfig(data []byte) (*Config, error) {
+	return ParseConfigFile(ConfigFile, data)
+}
+
+// ParseConfigFile parses the text of a config file; errors name it as
+// name (its path as the user gave or found it).
 //
 // The file comes with SRC, which may be hostile: it is refused before
 // decoding when it is over MaxConfigSize or nested deeper than
 // sources.MaxFrontMatterDepth (the decoder's memory grows with depth).
-func ParseConfig(data []byte) (*Config, error) {
+func ParseConfigFile(name string, data []byte) (*Config, error) {
 	if len(data) > MaxConfigSize {
-		return nil, &sources.Error{Path: ConfigFile, Msg: fmt.Sprintf("%d bytes, over the %d-byte limit for a config file", len(data), MaxConfigSize)}
+		return nil, &sources.Error{Path: name, Msg: fmt.Sprintf("%d bytes, over the %d-byte limit for a config file", len(data), MaxConfigSize)}
 	}
 	if line := sources.NestedTooDeep(data, "toml", sources.MaxFrontMatterDepth); line > 0 {
-		return nil, &sources.Error{Path: ConfigFile, Line: line, Msg: fmt.Sprintf("nested more than %d levels deep", sources.MaxFrontMatterDepth)}
+		return nil, &sources.Error{Path: name, Line: line, Msg: fmt.Sprintf("nested more than %d levels deep", sources.MaxFrontMatterDepth)}
 	}
 	var c Config
 	md, err := toml.Decode(string(data), &c)
@@ -103,20 +120,33 @@ func ParseConfig(data []byte) (*Config, error) {
 			var key, msg string
 			if n, _ := fmt.Sscanf(err.Error(), "toml: line %d (last key %q): ", &line, &key); n == 2 {
 				_, msg, _ = strings.Cut(err.Error(), "): ")
-				return nil, &sources.Error{Path: ConfigFile, Line: line, Msg: key + ": " + msg, Err: err}
+				if h := keyHint(key); h != "" {
+					msg = h
+				} else {
+					msg = key + ": " + msg
+				}
+				return nil, &sources.Error{Path: name, Line: line, Msg: msg, Err: err}
 			}
-			return nil, &sources.Error{Path: ConfigFile, Msg: strings.TrimPrefix(err.Error(), "toml: "), Err: err}
+			return nil, &sources.Error{Path: name, Msg: strings.TrimPrefix(err.Error(), "toml: "), Err: err}
 		}
 		msg := pe.Message
 		if pe.LastKey != "" && !strings.Contains(msg, pe.LastKey) {
 			msg = pe.LastKey + ": " + msg
 		}
-		return nil, &sources.Error{Path: ConfigFile, Line: pe.Position.Line, Msg: msg, Err: err}
+		return nil, &sources.Error{Path: name, Line: pe.Position.Line, Msg: msg, Err: err}
 	}
 	c.lines = keyLines(data)
+	c.Path = name
 	if und := md.Undecoded(); len(und) > 0 {
 		key := und[0].String()
-		return nil, &sources.Error{Path: ConfigFile, Line: c.Line(key), Msg: fmt.Sprintf("unknown setting %q", key)}
+		msg := fmt.Sprintf("unknown setting %q", key)
+		if near := nearestKey(key); near != "" {
+			msg += fmt.Sprintf("; did you mean %q?", near)
+		}
+		return nil, &sources.Error{Path: name, Line: c.Line(key), Msg: msg}
+	}
+	if md.IsDefined("gates") {
+		c.Notes = append(c.Notes, fmt.Sprintf("%s:%d: the [gates] section is now called [checks]; [gates] is still read in this release", name, c.Line("gates")))
 	}
 	return &c, nil
 }
@@ -128,7 +158,7 @@ func (c *Config) Line(key string) int {
 
 // Errorf returns a positioned error about the value of a dotted key.
 func (c *Config) Errorf(key, format string, args ...any) *sources.Error {
-	return &sources.Error{Path: ConfigFile, Line: c.Line(key), Msg: key + ": " + fmt.Sprintf(format, args...)}
+	return &sources.Error{Path: c.path(), Line: c.Line(key), Msg: key + ": " + fmt.Sprintf(format, args...)}
 }
 
 // keyLines finds the line of each "key = value" in a TOML text, keyed by
@@ -194,7 +224,7 @@ func (c *Config) Apply(o *Options) error {
 		o.Walk.MaxSize = n
 	}
 	if err := o.Settings.Validate(); err != nil {
-		return &sources.Error{Path: ConfigFile, Line: c.Line("build"), Msg: err.Error()}
+		return &sources.Error{Path: c.path(), Line: c.Line("build"), Msg: err.Error()}
 	}
 
 	d := c.Duplicates
@@ -234,12 +264,12 @@ func (c *Config) Apply(o *Options) error {
 	for i, r := range f.MaxAge {
 		dur, err := fresh.ParseDuration(r.MaxAge)
 		if err != nil {
-			return &sources.Error{Path: ConfigFile, Line: c.ruleLine(i), Msg: fmt.Sprintf("freshness.max_age rule %d: %v", i+1, err)}
+			return &sources.Error{Path: c.path(), Line: c.ruleLine(i), Msg: fmt.Sprintf("freshness.max_age rule %d: %v", i+1, err)}
 		}
 		o.Fresh.MaxAge = append(o.Fresh.MaxAge, fresh.AgeRule{Pattern: r.Pattern, MaxAge: dur})
 	}
 	if err := o.Fresh.Validate(); err != nil {
-		return &sources.Error{Path: ConfigFile, Line: c.Line("freshness"), Msg: "freshness: " + err.Error()}
+		return &sources.Error{Path: c.path(), Line: c.Line("freshness"), Msg: "freshness: " + err.Error()}
 	}
 	return nil
 }

@@ -1,21 +1,20 @@
 package build
 
 import (
-	"bytes"
-	"os/exec"
-	"strings"
+	"context"
+
+	"github.com/kbc-project/kbc/build/fresh"
 )
 
 // SourceCommit returns the commit checked out in the git work tree that
 // holds dir, and whether the tree under dir has uncommitted changes. It
 // returns "" when dir is not in a work tree or git is not installed: a
-// bundle built from a plain folder simply has no commit.
-func SourceCommit(dir string) (commit string, dirty bool) {
-	out, err := exec.Command("git", "-C", dir, "rev-parse", "--verify", "-q", "HEAD").Output()
-	if err != nil {
+// bundle built from a plain folder simply has no commit. git runs under
+// ctx (fresh.GitOutput).
+func SourceCommit(ctx context.Context, dir string) (commit string, dirty bool) {
+	commit = fresh.GitOutput(ctx, dir, "rev-parse", "--verify", "-q", "HEAD")
+	if commit == "" {
 		return "", false
 	}
-	commit = strings.TrimSpace(string(out))
-	st, err := exec.Command("git", "-C", dir, "status", "--porcelain", "--", ".").Output()
-	return commit, err == nil && len(bytes.TrimSpace(st)) > 0
+	return commit, fresh.GitOutput(ctx, dir, "status", "--porcelain", "--", ".") != ""
 }

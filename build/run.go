@@ -1,6 +1,7 @@
 package build
 
 import (
+	"cmp"
 	"context"
 	"crypto/sha256"
 	"encoding/hex"
@@ -9,7 +10,6 @@ import (
 	"io/fs"
 	"runtime"
 	"slices"
-	"sort"
 	"strings"
 	"sync/atomic"
 	"time"
@@ -46,6 +46,10 @@ type Options struct {
 	// while the split settings and the page's boilerplate are the same)
 	// and updates the rest. It must fit the tool version (Cache.Fits).
 	Cache *Cache
+	// Walked, when set, is the listing of fsys made with Walk (for the
+	// same Walk options): Run builds those files instead of walking the
+	// tree again.
+	Walked *Walked
 }
 
 // DefaultOptions returns options with DefaultSettings and the default walk.
@@ -93,9 +97,12 @@ type Result struct {
 // Result.Problems and the rest is built. Run fails only when the settings
 // are invalid or ctx is cancelled.
 //
-// Per-document work (read, parse, normalise, date, split) runs on several
-// goroutines; the boilerplate count and the duplicate search look across
-// documents.
+// Run is the stages in order, each a function of its own with what it
+// takes and gives in its signature: readStage (read, parse, normalise;
+// several goroutines), dateStage (freshness, with the git history read in
+// the background meanwhile), boilerplateStage (across documents),
+// splitStage (strip and split; several goroutines) and foldStage (keep
+// one passage per group of copies).
 func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 	s := opts.Settings
 	if err := s.Validate(); err != nil {
@@ -109,39 +116,109 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 	if workers <= 0 {
 		workers = runtime.GOMAXPROCS(0)
 	}
-
 	now := opts.Now
 	if now.IsZero() {
 		now = time.Now()
 	}
 	now = now.UTC()
-	// git history is read once for the whole tree, while the files parse.
-	type gitResult struct {
-		dates map[string]time.Time
-		err   error
-	}
-	gitc := make(chan gitResult, 1)
-	go func() {
-		if opts.GitDir == "" {
-			gitc <- gitResult{}
-			return
-		}
-		if opts.Cache == nil {
-			d, err := fresh.GitDates(ctx, opts.GitDir)
-			gitc <- gitResult{d, err}
-			return
-		}
-		// From what the last build read: only the commits since.
-		d, h, err := fresh.GitDatesFrom(ctx, opts.GitDir, opts.Cache.gitHistory())
-		opts.Cache.storeGitHistory(h)
-		gitc <- gitResult{d, err}
-	}()
+	gitc := readGitDates(ctx, opts.GitDir, opts.Cache)
 
-	files, walkErrs := sources.Walk(fsys, opts.Walk)
+	walked := opts.Walked
+	if walked == nil {
+		walked = Walk(fsys, opts)
+	}
+	// Run appends to its own copies: the caller's listing stays as it is.
+	files, walkErrs := slices.Clone(walked.Files), slices.Clone(walked.Problems)
 	res := &Result{Problems: walkErrs}
 	res.Stats.Files = len(files) + len(walkErrs)
 
-	// Stage 1: read, parse and normalise each document.
+	ds, err := readStage(ctx, fsys, files, opts, workers, res)
+	if err != nil {
+		return nil, err
+	}
+	res.Stats.Skipped += len(walkErrs)
+
+	gr := <-gitc
+	if gr.err != nil {
+		if !errors.Is(gr.err, fresh.ErrShallow) {
+			return nil, fmt.Errorf("reading git history: %w", gr.err)
+		}
+		res.Problems = append(res.Problems, &sources.Error{Path: ".", Msg: gr.err.Error(), Err: gr.err})
+	}
+	infos := dateStage(ds, gr.dates, now, opts.Fresh, res)
+	bp := boilerplateStage(ds, s)
+	res.Boilerplate = bp.Entries()
+	if res.Passages, err = splitStage(ctx, ds, infos, bp, tok, s, workers, res); err != nil {
+		return nil, err
+	}
+	if err := foldStage(ds, opts.Dedupe, res); err != nil {
+		return nil, err
+	}
+	sources.SortErrors(res.Problems)
+	res.Stats.Documents = len(ds.docs)
+	res.Stats.Passages = len(res.Passages)
+	res.Stats.Warnings = len(res.Problems)
+	return res, nil
+}
+
+// gitDates is the git history's dates of the files, by path.
+type gitDates struct {
+	dates map[string]time.Time
+	err   error
+}
+
+// readGitDates reads the git history of dir once for the whole tree, in
+// the background while the files parse; from what the last build read
+// (only the commits since) when there is a cache. No dir, no dates.
+func readGitDates(ctx context.Context, dir string, cache *Cache) <-chan gitDates {
+	gitc := make(chan gitDates, 1)
+	go func() {
+		if dir == "" {
+			gitc <- gitDates{}
+			return
+		}
+		if cache == nil {
+			d, err := fresh.GitDates(ctx, dir)
+			gitc <- gitDates{d, err}
+			return
+		}
+		d, h, err := fresh.GitDatesFrom(ctx, dir, cache.gitHistory())
+		cache.storeGitHistory(h)
+		gitc <- gitDates{d, err}
+	}()
+	return gitc
+}
+
+// docSet are the documents a build keeps, each with what the read stage
+// learnt of it: its block keys, its file and its count of blocks (a
+// document from the cache comes without its blocks; full reads them).
+type docSet struct {
+	fsys    fs.FS
+	maxSize int64
+	cache   *Cache
+	docs    []*sources.Document
+	keys    [][]BlockKey
+	files   []sources.File
+	blocks  []int
+}
+
+// full returns document i with its blocks, reading it again when it came
+// from the cache.
+func (ds *docSet) full(i int) (*sources.Document, *sources.Error) {
+	d, fail := withBlocks(ds.fsys, ds.files[i], ds.docs[i], ds.blocks[i], ds.maxSize)
+	if fail != nil {
+		// Its entry no longer describes the file: the next build reads
+		// it afresh, whatever its size and time say.
+		ds.cache.forget(ds.files[i].Path)
+	}
+	return d, fail
+}
+
+// readStage reads, parses and normalises each file on workers goroutines
+// (or takes it from the cache), and returns the documents kept. Files
+// that cannot be used go to res.Problems, counted as skipped; the
+// documents' warnings go there too.
+func readStage(ctx context.Context, fsys fs.FS, files []sources.File, opts Options, workers int, res *Result) (*docSet, error) {
 	docs := make([]*sources.Document, len(files))
 	fails := make([]*sources.Error, len(files))
 	reused := make([]bool, len(files))
@@ -165,12 +242,7 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 	if err := g.Wait(); err != nil {
 		return nil, err
 	}
-	var (
-		kept       []*sources.Document
-		keptKeys   [][]BlockKey
-		keptFiles  []sources.File
-		keptBlocks []int
-	)
+	ds := &docSet{fsys: fsys, maxSize: opts.Walk.MaxSize, cache: opts.Cache}
 	present := make(map[string]bool, len(files))
 	for i, d := range docs {
 		present[files[i].Path] = true
@@ -187,97 +259,92 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 		if blocks[i] == 0 {
 			res.Stats.Empty++
 		}
-		kept, keptKeys = append(kept, d), append(keptKeys, keys[i])
-		keptFiles, keptBlocks = append(keptFiles, files[i]), append(keptBlocks, blocks[i])
+		ds.docs, ds.keys = append(ds.docs, d), append(ds.keys, keys[i])
+		ds.files, ds.blocks = append(ds.files, files[i]), append(ds.blocks, blocks[i])
 	}
-	docs, keys, files, blocks = kept, keptKeys, keptFiles, keptBlocks
-	// full returns document i with its blocks, reading it again when it
-	// came from the cache.
-	full := func(i int) (*sources.Document, *sources.Error) {
-		d, fail := withBlocks(fsys, files[i], docs[i], blocks[i], opts.Walk.MaxSize)
-		if fail != nil {
-			// Its entry no longer describes the file: the next build
-			// reads it afresh, whatever its size and time say.
-			opts.Cache.forget(files[i].Path)
-		}
-		return d, fail
-	}
-	res.Stats.Skipped += len(walkErrs)
-
 	opts.Cache.keep(present)
+	return ds, nil
+}
 
-	// Stage 2: date every document.
-	gr := <-gitc
-	if gr.err != nil {
-		if !errors.Is(gr.err, fresh.ErrShallow) {
-			return nil, fmt.Errorf("reading git history: %w", gr.err)
-		}
-		res.Problems = append(res.Problems, &sources.Error{Path: ".", Msg: gr.err.Error(), Err: gr.err})
-	}
-	infos := make([]fresh.Info, len(docs))
+// dateStage dates every document (front matter, then the git dates, then
+// the file time) under the policy at now, and fills the staleness,
+// secrets and hidden-text reports. It returns each document's freshness,
+// in the order of ds.
+func dateStage(ds *docSet, dates map[string]time.Time, now time.Time, policy fresh.Policy, res *Result) []fresh.Info {
+	infos := make([]fresh.Info, len(ds.docs))
 	var dated []DocFreshness
-	for i, d := range docs {
+	for i, d := range ds.docs {
 		var warns []*sources.Error
-		infos[i], warns = fresh.Evaluate(d, gr.dates, now, opts.Fresh)
+		infos[i], warns = fresh.Evaluate(d, dates, now, policy)
 		res.Problems = append(res.Problems, warns...)
 		dated = append(dated, DocFreshness{Path: d.Path, Title: d.Title, Info: infos[i]})
 	}
-	res.Staleness = NewStalenessReport(dated, now, opts.Fresh)
-	res.Secrets, res.Hidden = NewSecretsReport(docs), NewHiddenReport(docs)
+	res.Staleness = NewStalenessReport(dated, now, policy)
+	res.Secrets, res.Hidden = NewSecretsReport(ds.docs), NewHiddenReport(ds.docs)
 	res.Stats.Secrets, res.Stats.Hidden, res.Stats.Lints = res.Secrets.Total, res.Hidden.Total, len(res.Hidden.Lints)
 	res.Stats.Stale, res.Stats.Expired = res.Staleness.Counts.Stale, res.Staleness.Counts.Expired
+	return infos
+}
 
-	// Stage 3: find the site boilerplate across all documents.
-	// Each document's block keys come from the cache or from reading it.
+// boilerplateStage finds the site boilerplate across all documents from
+// their block keys, and has its entries described by the text of the
+// first pages that hold them.
+func boilerplateStage(ds *docSet, s Settings) *Boilerplate {
 	counts := make(map[BlockKey]int)
-	for _, ks := range keys {
+	for _, ks := range ds.keys {
 		for _, k := range ks {
 			counts[k]++
 		}
 	}
-	bp := NewBoilerplate(counts, len(docs), s)
-	if bp.Len() > 0 {
-		var with []int // only pages that hold some boilerplate
-		for i := range docs {
-			if slices.ContainsFunc(keys[i], bp.Has) {
-				with = append(with, i)
-			}
-		}
-		// In path order, one page at a time: a page or two usually
-		// describe every entry, and only those are read again.
-		slices.SortFunc(with, func(a, b int) int { return strings.Compare(docs[a].Path, docs[b].Path) })
-		for _, i := range with {
-			if bp.Described() {
-				break
-			}
-			if d, fail := full(i); fail == nil {
-				bp.Describe([]*sources.Document{d})
-			}
+	bp := NewBoilerplate(counts, len(ds.docs), s)
+	if bp.Len() == 0 {
+		return bp
+	}
+	var with []int // only pages that hold some boilerplate
+	for i := range ds.docs {
+		if slices.ContainsFunc(ds.keys[i], bp.Has) {
+			with = append(with, i)
 		}
 	}
-	res.Boilerplate = bp.Entries()
+	// In path order, one page at a time: a page or two usually describe
+	// every entry, and only those are read again.
+	slices.SortFunc(with, func(a, b int) int { return strings.Compare(ds.docs[a].Path, ds.docs[b].Path) })
+	for _, i := range with {
+		if bp.Described() {
+			break
+		}
+		if d, fail := ds.full(i); fail == nil {
+			bp.Describe([]*sources.Document{d})
+		}
+	}
+	return bp
+}
 
-	// Stage 4: strip boilerplate and split each document into passages,
-	// which inherit their document's dates and owner.
+// splitStage strips the boilerplate from each document and splits it into
+// passages on workers goroutines (or takes its passages from the cache),
+// copies its document's freshness onto each passage, and returns them all
+// in passage order (SortPassages). A document that can no longer be read
+// goes to res.Problems.
+func splitStage(ctx context.Context, ds *docSet, infos []fresh.Info, bp *Boilerplate, tok *Tokenizer, s Settings, workers int, res *Result) ([]Passage, error) {
 	splitSet := splitSettings(s)
-	parts := make([][]Passage, len(docs))
-	dropped := make([]int, len(docs))
-	lost := make([]*sources.Error, len(docs)) // could not be read again
-	g, gctx = errgroup.WithContext(ctx)
+	parts := make([][]Passage, len(ds.docs))
+	dropped := make([]int, len(ds.docs))
+	lost := make([]*sources.Error, len(ds.docs)) // could not be read again
+	g, gctx := errgroup.WithContext(ctx)
 	g.SetLimit(workers)
-	for i, d := range docs {
+	for i, d := range ds.docs {
 		g.Go(func() error {
 			if err := gctx.Err(); err != nil {
 				return err
 			}
 			var digest string
 			ok := false
-			if opts.Cache != nil {
-				digest = splitKey(splitSet, keys[i], bp)
-				parts[i], dropped[i], ok = opts.Cache.passages(d.Path, digest)
+			if ds.cache != nil {
+				digest = splitKey(splitSet, ds.keys[i], bp)
+				parts[i], dropped[i], ok = ds.cache.passages(d.Path, digest)
 			}
 			if !ok {
-				d, fail := full(i)
+				d, fail := ds.full(i)
 				if fail != nil {
 					lost[i] = fail
 					return nil
@@ -285,10 +352,10 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 				var clean *sources.Document
 				clean, dropped[i] = bp.Strip(d)
 				parts[i] = Split(clean, tok, s)
-				opts.Cache.storePassages(d.Path, digest, parts[i], dropped[i])
+				ds.cache.storePassages(d.Path, digest, parts[i], dropped[i])
 			}
 			for j := range parts[i] {
-				stamp(&parts[i][j], infos[i])
+				copyFreshness(&parts[i][j], infos[i])
 			}
 			return nil
 		})
@@ -296,30 +363,34 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 	if err := g.Wait(); err != nil {
 		return nil, err
 	}
-	for i := range docs {
+	var out []Passage
+	for i := range ds.docs {
 		if lost[i] != nil {
 			res.Problems = append(res.Problems, lost[i])
 		}
 		res.Stats.BoilerplateDropped += dropped[i]
 		for _, p := range parts[i] {
-			res.Stats.Tokens += p.Tokens
 			if p.Split {
 				res.Stats.SplitPassages++
 			}
 		}
-		res.Passages = append(res.Passages, parts[i]...)
+		out = append(out, parts[i]...)
 	}
-	sortPassages(res.Passages)
+	SortPassages(out)
+	return out, nil
+}
 
-	// Stage 5: keep one passage per group of copies.
-	byPath := make(map[string]*sources.Document, len(docs))
-	for _, d := range docs {
+// foldStage keeps one passage per group of copies in res.Passages, fills
+// the duplicate report, and counts the tokens of the passages kept.
+func foldStage(ds *docSet, opts dedupe.Options, res *Result) error {
+	byPath := make(map[string]*sources.Document, len(ds.docs))
+	for _, d := range ds.docs {
 		byPath[d.Path] = d
 	}
-	var err2 error
-	res.Passages, res.Duplicates, err2 = dedupePassages(res.Passages, byPath, opts.Dedupe, opts.Cache)
-	if err2 != nil {
-		return nil, err2
+	var err error
+	res.Passages, res.Duplicates, err = dedupePassages(res.Passages, byPath, opts, ds.cache)
+	if err != nil {
+		return err
 	}
 	res.Stats.Duplicates = res.Duplicates.Removed
 	res.Stats.Divergent = len(res.Duplicates.Divergent)
@@ -327,11 +398,7 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 	for _, p := range res.Passages {
 		res.Stats.Tokens += p.Tokens
 	}
-	sources.SortErrors(res.Problems)
-	res.Stats.Documents = len(docs)
-	res.Stats.Passages = len(res.Passages)
-	res.Stats.Warnings = len(res.Problems)
-	return res, nil
+	return nil
 }
 
 // readDocument reads, parses and normalises one file, or takes it from
@@ -424,25 +491,31 @@ func withBlocks(fsys fs.FS, f sources.File, d *sources.Document, blocks int, max
 	return &cp, nil
 }
 
-// stamp copies a document's freshness onto one of its passages.
-func stamp(p *Passage, info fresh.Info) {
+// copyFreshness copies a document's freshness onto one of its passages.
+func copyFreshness(p *Passage, info fresh.Info) {
 	p.Updated, p.UpdatedSource = info.Updated, info.UpdatedSource
 	p.Reviewed, p.ReviewBy, p.Expires = info.Reviewed, info.ReviewBy, info.Expires
 	p.Owner, p.Audience = info.Owner, info.Audience
 }
 
-// sortPassages orders passages by path and line. The sort is stable and
-// Split gives each page's passages in reading order, so passages that
-// start on the same line (the parts of a long one-line paragraph, or the
-// sections of a page written on one line) stay in reading order.
-func sortPassages(ps []Passage) {
-	sort.SliceStable(ps, func(i, j int) bool {
-		a, b := ps[i], ps[j]
-		if a.Path != b.Path {
-			return a.Path < b.Path
-		}
-		return a.Line < b.Line
-	})
+// SortPassages puts passages in passage order, the one order of a build's
+// passages and of a bundle's passages.jsonl: by path, then line. The sort
+// is stable and Split gives each page's passages in reading order, so
+// passages that start on the same line (the parts of a long one-line
+// paragraph, or the sections of a page written on one line) stay in
+// reading order.
+func SortPassages(ps []Passage) {
+	slices.SortStableFunc(ps, func(a, b Passage) int { return ComparePassages(&a, &b) })
+}
+
+// ComparePassages compares two passages in passage order (see
+// SortPassages): by path, then line. Equal passages are left in the order
+// they came in by a stable sort.
+func ComparePassages(a, b *Passage) int {
+	if c := strings.Compare(a.Path, b.Path); c != 0 {
+		return c
+	}
+	return cmp.Compare(a.Line, b.Line)
 }
 
 // Strict returns an error naming the count of problems when there are any,

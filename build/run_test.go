@@ -54,7 +54,7 @@ func TestRunGoesOnAfterBadFiles(t *testing.T) {
 		"empty.html:1: no body text",
 		"frontbad.md:2: front matter: invalid YAML: did not find expected node content",
 		"locked.md: cannot read: permission denied",
-		"notes/big.md: file is 2.0 kB, over the 1000 bytes size limit; skipped",
+		"notes/big.md: file is 2.0 kB, over the 1000 B size limit; skipped",
 	}
 	if strings.Join(got, "\n") != strings.Join(want, "\n") {
 		t.Errorf("problems:\n%s\nwant:\n%s", strings.Join(got, "\n"), strings.Join(want, "\n"))

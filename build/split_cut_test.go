@@ -64,7 +64,7 @@ func TestSortKeepsReadingOrder(t *testing.T) {
 		t.Fatalf("%d passages, want the paragraph cut in several", len(ps))
 	}
 	all := append(Split(sampleDoc("c.md", "# C\n\nother page\n"), tok, s), ps...)
-	sortPassages(all)
+	SortPassages(all)
 	var got []string
 	for _, p := range all {
 		if p.Path == "b.md" {

@@ -3,13 +3,16 @@ package bundle
 import (
 	"os"
 	"path/filepath"
+
+	"github.com/kbc-project/kbc/internal/atomicfile"
 )
 
 // CacheDir returns the build cache folder of the bundle folder out: a
 // sibling named OUT.cache, never inside the bundle, so the bundle's files
 // and hashes do not depend on what was cached. It holds the build cache
-// (build.LoadCache, build.Cache.Save), the stamp of the last build
-// (WriteStamp) and the catalog of the bundle's passages (Input.Catalog).
+// (build.LoadCache, build.Cache.Save), the record of the inputs of the
+// last build (package bundle/compile) and the catalog of the bundle's
+// passages (Input.Catalog).
 func CacheDir(out string) string {
 	return filepath.Clean(out) + ".cache"
 }
@@ -24,17 +27,5 @@ func writeCacheFile(out, name string, data []byte) error {
 	if err := os.MkdirAll(dir, 0o755); err != nil {
 		return err
 	}
-	tmp, err := os.CreateTemp(dir, "."+name+".tmp-*")
-	if err != nil {
-		return err
-	}
-	defer os.Remove(tmp.Name())
-	if _, err := tmp.Write(data); err != nil {
-		tmp.Close()
-		return err
-	}
-	if err := tmp.Close(); err != nil {
-		return err
-	}
-	return os.Rename(tmp.Name(), filepath.Join(dir, name))
+	return atomicfile.WriteFile(filepath.Join(dir, name), data, atomicfile.NoFlush)
 }

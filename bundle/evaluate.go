@@ -3,14 +3,14 @@ package bundle
 import (
 	"cmp"
 	"fmt"
-	"os"
-	"path/filepath"
+	"io"
 	"slices"
 	"strings"
 	"sync/atomic"
 
 	"github.com/kbc-project/kbc/build"
 	"github.com/kbc-project/kbc/bundle/eval"
+	"github.com/kbc-project/kbc/internal/atomicfile"
 )
 
 // Level is what a hit counts as when it is judged: its section or its page.
@@ -292,21 +292,10 @@ func b2i(b bool) int {
 // eval.WriteRun) with the tag "kbc", atomically: the file is written
 // beside path under a temporary name, flushed and renamed.
 func WriteRunFile(path string, run eval.Run) error {
-	tmp, err := os.CreateTemp(filepath.Dir(path), "."+filepath.Base(path)+".tmp-*")
-	if err != nil {
-		return err
-	}
-	defer os.Remove(tmp.Name())
-	if err := eval.WriteRun(tmp, run, "kbc"); err != nil {
-		tmp.Close()
-		return fmt.Errorf("writing %s: %w", path, err)
-	}
-	if err := tmp.Sync(); err != nil {
-		tmp.Close()
-		return err
-	}
-	if err := tmp.Close(); err != nil {
-		return err
-	}
-	return os.Rename(tmp.Name(), path)
+	return atomicfile.Write(path, atomicfile.Flush, func(w io.Writer) error {
+		if err := eval.WriteRun(w, run, "kbc"); err != nil {
+			return fmt.Errorf("writing %s: %w", path, err)
+		}
+		return nil
+	})
 }

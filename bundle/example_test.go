@@ -40,7 +40,7 @@ func Example() {
 				"The key cabinet sits beside the dispatch desk."),
 		},
 		Tool:     "kbc example",
-		Settings: map[string]any{"max_tokens": 400},
+		Settings: &bundle.Settings{Settings: build.Settings{MaxTokens: 400}},
 	})
 	if err != nil {
 		log.Fatal(err)

@@ -31,7 +31,7 @@ type Input struct {
 	Passages []build.Passage
 	// Settings are the build settings, marshalled into the manifest with
 	// sorted keys; nil leaves them out.
-	Settings any
+	Settings *Settings
 	// Tool names the writing program and its version, e.g. "kbc v0.1.0".
 	Tool string
 	// SourceCommit is the source repository's commit; empty leaves it out.
@@ -80,26 +80,33 @@ type Input struct {
 // called concurrently for different out folders. Folders are created 0755
 // and files 0644.
 func Write(out string, in *Input) (*Manifest, error) {
+	m, _, err := write(out, in, nil)
+	return m, err
+}
+
+// Commit is Write that also returns the delta it wrote to delta.json:
+// the passages added, changed and removed against in.Prior.
+func Commit(out string, in *Input) (*Manifest, *Delta, error) {
 	return write(out, in, nil)
 }
 
 // write is Write with a hook run on the complete temporary folder just
 // before it is put in place; tests use it to fail late.
-func write(out string, in *Input, hook func(tmp string) error) (_ *Manifest, err error) {
+func write(out string, in *Input, hook func(tmp string) error) (_ *Manifest, _ *Delta, err error) {
 	if in == nil {
-		return nil, errors.New("writing bundle: no input")
+		return nil, nil, errors.New("writing bundle: no input")
 	}
 	out = filepath.Clean(out)
 	if err := checkInput(in); err != nil {
-		return nil, fmt.Errorf("writing bundle %s: %w", out, err)
+		return nil, nil, fmt.Errorf("writing bundle %s: %w", out, err)
 	}
 	if err := checkTarget(out); err != nil {
-		return nil, fmt.Errorf("writing bundle %s: %w", out, err)
+		return nil, nil, fmt.Errorf("writing bundle %s: %w", out, err)
 	}
 	parent, base := filepath.Dir(out), filepath.Base(out)
 	tmp, release, err := TempDir(parent, "."+base+".tmp-")
 	if err != nil {
-		return nil, fmt.Errorf("writing bundle %s: cannot create a folder in %s: %w", out, parent, err)
+		return nil, nil, fmt.Errorf("writing bundle %s: cannot create a folder in %s: %w", out, parent, err)
 	}
 	defer release()
 	defer func() {
@@ -107,7 +114,7 @@ func write(out string, in *Input, hook func(tmp string) error) (_ *Manifest, err
 			os.RemoveAll(tmp)
 		}
 	}()
-	m, cat, err := writeTree(tmp, in)
+	m, cat, d, err := writeTree(tmp, in)
 	if err == nil && hook != nil {
 		err = hook(tmp)
 	}
@@ -115,7 +122,7 @@ func write(out string, in *Input, hook func(tmp string) error) (_ *Manifest, err
 		err = place(tmp, out, exchange)
 	}
 	if err != nil {
-		return nil, fmt.Errorf("writing bundle %s: %w", out, err)
+		return nil, nil, fmt.Errorf("writing bundle %s: %w", out, err)
 	}
 	if in.Catalog {
 		// Without it the next build reads passages.jsonl instead.
@@ -123,7 +130,7 @@ func write(out string, in *Input, hook func(tmp string) error) (_ *Manifest, err
 			os.Remove(filepath.Join(CacheDir(out), catalogFile))
 		}
 	}
-	return m, nil
+	return m, d, nil
 }
 
 // forEach calls fn(i) for each i in [0, n) on GOMAXPROCS goroutines;
@@ -383,7 +390,8 @@ func listEntries(entries []fs.DirEntry) string {
 	return strings.Join(names, ", ")
 }
 
-// sortedOrder returns the indexes of ps ordered by path and line. Ties
+// sortedOrder returns the indexes of ps in passage order
+// (build.ComparePassages: by path and line). Ties
 // keep the order of ps, which build.Run gives in reading order: the parts
 // of a one-line paragraph must not be shuffled by their ids.
 func sortedOrder(ps []build.Passage) []int {
@@ -391,26 +399,25 @@ func sortedOrder(ps []build.Passage) []int {
 	for i := range order {
 		order[i] = i
 	}
-	slices.SortStableFunc(order, func(a, b int) int {
-		pa, pb := &ps[a], &ps[b]
-		if c := strings.Compare(pa.Path, pb.Path); c != 0 {
-			return c
-		}
-		return pa.Line - pb.Line
-	})
+	slices.SortStableFunc(order, func(a, b int) int { return build.ComparePassages(&ps[a], &ps[b]) })
 	return order
 }
 
 // writeTree writes the whole bundle into the empty folder dir and flushes
 // it to stable storage.
-// It also returns the catalog of the bundle's passages.
-func writeTree(dir string, in *Input) (*Manifest, *catalog, error) {
+// It also returns the catalog of the bundle's passages and the delta
+// against in.Prior.
+func writeTree(dir string, in *Input) (*Manifest, *catalog, *Delta, error) {
 	if err := os.Chmod(dir, 0o755); err != nil {
-		return nil, nil, err
+		return nil, nil, nil, err
 	}
-	settings, err := canonicalJSON(in.Settings)
+	var settings json.RawMessage
+	var err error
+	if in.Settings != nil {
+		settings, err = canonicalJSON(in.Settings)
+	}
 	if err != nil {
-		return nil, nil, fmt.Errorf("settings: %w", err)
+		return nil, nil, nil, fmt.Errorf("settings: %w", err)
 	}
 	m := &Manifest{
 		Format:       FormatVersion,
@@ -448,7 +455,7 @@ func writeTree(dir string, in *Input) (*Manifest, *catalog, error) {
 	sums := contentSums(in.Passages, order)
 	lines, err := encodeLines(in.Passages, order)
 	if err != nil {
-		return nil, nil, err
+		return nil, nil, nil, err
 	}
 	m.Files[PassagesFile], err = writeFile(dir, PassagesFile, func(w io.Writer) error {
 		bw := bufio.NewWriterSize(w, 1<<16)
@@ -465,7 +472,7 @@ func writeTree(dir string, in *Input) (*Manifest, *catalog, error) {
 		return bw.Flush()
 	})
 	if err != nil {
-		return nil, nil, err
+		return nil, nil, nil, err
 	}
 	m.BundleID = strings.TrimPrefix(m.Files[PassagesFile], "sha256:")
 	cat.BundleID = m.BundleID
@@ -478,7 +485,7 @@ func writeTree(dir string, in *Input) (*Manifest, *catalog, error) {
 	}
 	m.Files[LinesFile], err = writeFile(dir, LinesFile, func(w io.Writer) error { return encodeLineTable(w, ids, spans, cat.Size) })
 	if err != nil {
-		return nil, nil, err
+		return nil, nil, nil, err
 	}
 
 	// delta.json: what changed against the bundle this one replaces.
@@ -487,7 +494,7 @@ func writeTree(dir string, in *Input) (*Manifest, *catalog, error) {
 		if in.Prior.ID == m.BundleID {
 			prior = cat // the same bytes: nothing to compare
 		} else if prior, err = in.Prior.catalog(); err != nil {
-			return nil, nil, fmt.Errorf("reading the bundle replaced: %w", err)
+			return nil, nil, nil, fmt.Errorf("reading the bundle replaced: %w", err)
 		}
 	}
 	d := diffCatalogs(prior, cat)
@@ -504,12 +511,12 @@ func writeTree(dir string, in *Input) (*Manifest, *catalog, error) {
 		return err
 	})
 	if err != nil {
-		return nil, nil, err
+		return nil, nil, nil, err
 	}
 
 	m.Files[SchemaFile], err = writeFile(dir, SchemaFile, bytesWriter(schema))
 	if err != nil {
-		return nil, nil, err
+		return nil, nil, nil, err
 	}
 
 	indexDir := filepath.Join(dir, filepath.FromSlash(IndexDir))
@@ -521,11 +528,11 @@ func writeTree(dir string, in *Input) (*Manifest, *catalog, error) {
 			st, err = buildIndex(indexDir, in.Passages, order, content)
 		}
 		if err != nil {
-			return nil, nil, err
+			return nil, nil, nil, err
 		}
 		stats, err = json.MarshalIndent(st, "", "  ")
 		if err != nil {
-			return nil, nil, err
+			return nil, nil, nil, err
 		}
 		stats = append(stats, '\n')
 	}
@@ -546,36 +553,36 @@ func writeTree(dir string, in *Input) (*Manifest, *catalog, error) {
 		return err
 	})
 	if err != nil {
-		return nil, nil, fmt.Errorf("index: %w", err)
+		return nil, nil, nil, fmt.Errorf("index: %w", err)
 	}
 	if stats != nil {
 		m.Files[StatsFile], err = writeFile(dir, StatsFile, bytesWriter(stats))
 		if err != nil {
-			return nil, nil, err
+			return nil, nil, nil, err
 		}
 	}
 
 	for name, data := range in.Files {
 		if err := os.MkdirAll(filepath.Join(dir, filepath.FromSlash(path.Dir(name))), 0o755); err != nil {
-			return nil, nil, err
+			return nil, nil, nil, err
 		}
 		m.Files[name], err = writeFile(dir, name, bytesWriter(data))
 		if err != nil {
-			return nil, nil, err
+			return nil, nil, nil, err
 		}
 	}
 
 	if err := m.seal(dir); err != nil {
-		return nil, nil, err
+		return nil, nil, nil, err
 	}
 	data, err := m.marshal()
 	if err != nil {
-		return nil, nil, err
+		return nil, nil, nil, err
 	}
 	if _, err := writeFile(dir, ManifestFile, bytesWriter(data)); err != nil {
-		return nil, nil, err
+		return nil, nil, nil, err
 	}
-	return m, cat, syncDirs(dir)
+	return m, cat, d, syncDirs(dir)
 }
 
 func bytesWriter(data []byte) func(io.Writer) error {

@@ -192,5 +192,5 @@ func NestedTooDeep(data []byte, format string, limit int) int {
 
 // sizeOver is the message for a front matter block over the size limit.
 func sizeOver(n int) string {
-	return fmt.Sprintf("front matter: %s, over the %s limit; not read", sizeString(int64(n)), sizeString(MaxFrontMatterSize))
+	return fmt.Sprintf("front matter: %s, over the %s limit; not read", SizeString(int64(n)), SizeString(MaxFrontMatterSize))
 }

@@ -78,7 +78,7 @@ func (w *walker) fail(p, format string, args ...any) {
 func (w *walker) dir(shown, target string, stack []string) {
 	entries, err := fs.ReadDir(w.fsys, target)
 	if err != nil {
-		w.fail(shown, "cannot read folder: %v", unwrapPath(err))
+		w.fail(shown, "cannot read folder: %v", UnwrapPath(err))
 		return
 	}
 	for _, e := range entries {
@@ -123,7 +123,7 @@ func (w *walker) dir(shown, target string, stack []string) {
 		}
 		info, err := e.Info()
 		if err != nil {
-			w.fail(p, "cannot read: %v", unwrapPath(err))
+			w.fail(p, "cannot read: %v", UnwrapPath(err))
 			continue
 		}
 		w.file(p, t, info)
@@ -139,7 +139,7 @@ func (w *walker) file(p, target string, info fs.FileInfo) {
 		return
 	}
 	if info.Size() > w.opts.MaxSize {
-		w.fail(p, "file is %s, over the %s size limit; skipped", sizeString(info.Size()), sizeString(w.opts.MaxSize))
+		w.fail(p, "file is %s, over the %s size limit; skipped", SizeString(info.Size()), SizeString(w.opts.MaxSize))
 		return
 	}
 	w.files = append(w.files, File{Path: p, Target: target, Size: info.Size(), ModTime: info.ModTime()})
@@ -177,7 +177,7 @@ func (w *walker) resolve(p, target string) (string, fs.FileInfo, bool) {
 	if !ok {
 		info, err := fs.Stat(w.fsys, target)
 		if err != nil {
-			w.fail(p, "cannot follow symlink: %v", unwrapPath(err))
+			w.fail(p, "cannot follow symlink: %v", UnwrapPath(err))
 			return "", nil, false
 		}
 		return target, info, true
@@ -194,7 +194,7 @@ func (w *walker) resolve(p, target string) (string, fs.FileInfo, bool) {
 	case errors.Is(err, errLinkLoop):
 		w.fail(p, "symlink loop: more than %d links in a row", maxLinkHops)
 	case err != nil:
-		w.fail(p, "broken symlink: %v", unwrapPath(err))
+		w.fail(p, "broken symlink: %v", UnwrapPath(err))
 	default:
 		return real, info, true
 	}
@@ -363,15 +363,15 @@ func ReadFile(fsys fs.FS, f File, maxSize int64) ([]byte, *Error) {
 	}
 	fh, err := fsys.Open(f.Target)
 	if err != nil {
-		return nil, &Error{Path: f.Path, Msg: fmt.Sprintf("cannot read: %v", unwrapPath(err)), Err: err}
+		return nil, &Error{Path: f.Path, Msg: fmt.Sprintf("cannot read: %v", UnwrapPath(err)), Err: err}
 	}
 	defer fh.Close()
 	data, err := io.ReadAll(io.LimitReader(fh, maxSize+1))
 	if err != nil {
-		return nil, &Error{Path: f.Path, Msg: fmt.Sprintf("cannot read: %v", unwrapPath(err)), Err: err}
+		return nil, &Error{Path: f.Path, Msg: fmt.Sprintf("cannot read: %v", UnwrapPath(err)), Err: err}
 	}
 	if int64(len(data)) > maxSize {
-		return nil, &Error{Path: f.Path, Msg: fmt.Sprintf("file is over the %s size limit; skipped", sizeString(maxSize))}
+		return nil, &Error{Path: f.Path, Msg: fmt.Sprintf("file is over the %s size limit; skipped", SizeString(maxSize))}
 	}
 	return data, nil
 }
@@ -392,9 +392,10 @@ func inStack(stack []string, p string) bool {
 	return false
 }
 
-// unwrapPath drops the operation and path that fs.PathError repeats, since
-// the message is already prefixed with the path.
-func unwrapPath(err error) error {
+// UnwrapPath drops the operation and path that fs.PathError (os.PathError)
+// repeats, for a message already prefixed with the path. Other errors are
+// returned as they are.
+func UnwrapPath(err error) error {
 	var pe *fs.PathError
 	if errors.As(err, &pe) {
 		return pe.Err
@@ -402,12 +403,14 @@ func unwrapPath(err error) error {
 	return err
 }
 
-func sizeString(n int64) string {
+// SizeString writes a byte count for people, in the units ParseSize and
+// --max-file-size read back: "512 B", "2.0 kB", "10.0 MB" (1 kB = 1024 B).
+func SizeString(n int64) string {
 	switch {
 	case n >= 1<<20:
 		return fmt.Sprintf("%.1f MB", float64(n)/(1<<20))
 	case n >= 1<<10:
 		return fmt.Sprintf("%.1f kB", float64(n)/(1<<10))
 	}
-	return fmt.Sprintf("%d bytes", n)
+	return fmt.Sprintf("%d B", n)
 }

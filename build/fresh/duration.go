@@ -32,7 +32,11 @@ const (
 // them. Units, in any letter case: d, day, days; w, week, weeks (7 days);
 // m, mo, month, months (30 days); y, year, years (365 days). A number
 // without a unit is refused ("90" could mean days or months), as are
-// signs, fractions and spans over 10000 years.
+// signs, fractions and spans over 10000 years. A whole number of years
+// written in months ("12 months", "24m") is refused too: at 30 days a
+// month it would be 360 days, not the year its writer meant, so "12
+// months" and "1y" could not agree; the error says to write "1y". The
+// same grammar is read in the config file and in front matter.
 func ParseDuration(s string) (Duration, error) {
 	t := strings.TrimSpace(s)
 	i := 0
@@ -62,6 +66,9 @@ func ParseDuration(s string) (Duration, error) {
 	n, err := strconv.Atoi(num)
 	if err != nil || n > maxDays/per {
 		return Duration{}, fmt.Errorf("duration %q: longer than 10000 years", s)
+	}
+	if per == daysPerMonth && n > 0 && n%12 == 0 {
+		return Duration{}, fmt.Errorf("duration %q: write %dy: a month counts 30 days here, so %d months would be %d days, not %d year(s)", s, n/12, n, n*per, n/12)
 	}
 	return Duration{Days: n * per}, nil
 }

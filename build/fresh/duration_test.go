@@ -36,6 +36,10 @@ func TestParseDuration(t *testing.T) {
 		{in: "1.5y", errorMsg: `duration "1.5y": unknown unit ".5y": want d, w, m or y`},
 		{in: "3h", errorMsg: `duration "3h": unknown unit "h": want d, w, m or y`},
 		{in: "1y6m", errorMsg: `duration "1y6m": unknown unit "y6m": want d, w, m or y`},
+		// "12 months" and "1y" would not agree (360 and 365 days): refused.
+		{in: "12 months", errorMsg: `duration "12 months": write 1y: a month counts 30 days here, so 12 months would be 360 days, not 1 year(s)`},
+		{in: "24m", errorMsg: `duration "24m": write 2y: a month counts 30 days here, so 24 months would be 720 days, not 2 year(s)`},
+		{in: "13m", days: 390, text: "390d"},
 		{in: "10001y", errorMsg: `duration "10001y": longer than 10000 years`},
 		{in: "99999999999999999999999d", errorMsg: `duration "99999999999999999999999d": longer than 10000 years`},
 	}

@@ -178,7 +178,7 @@ func GitDatesFrom(ctx context.Context, dir string, prev *GitHistory) (map[string
 	if err != nil {
 		return nil, nil, err
 	}
-	head := gitOutput(ctx, dir, "rev-parse", "--verify", "-q", "HEAD^{commit}")
+	head := GitOutput(ctx, dir, "rev-parse", "--verify", "-q", "HEAD^{commit}")
 	if head == "" {
 		// No repository, no commit, no git: GitDates says which.
 		d, err := GitDates(ctx, dir)
@@ -227,14 +227,14 @@ func (h *history) carry(older map[string]time.Time) {
 // base descends from base: git lists as many commits for base..head as
 // for --ancestry-path base..head, and at least one.
 func descends(ctx context.Context, dir, base, head string) bool {
-	all := gitOutput(ctx, dir, "rev-list", "--count", base+".."+head)
-	path := gitOutput(ctx, dir, "rev-list", "--count", "--ancestry-path", base+".."+head)
+	all := GitOutput(ctx, dir, "rev-list", "--count", base+".."+head)
+	path := GitOutput(ctx, dir, "rev-list", "--count", "--ancestry-path", base+".."+head)
 	return all != "" && all != "0" && all == path
 }
 
 // gitOutput runs git in dir and returns its output, trimmed, or "" when
 // it fails.
-func gitOutput(ctx context.Context, dir string, args ...string) string {
+func GitOutput(ctx context.Context, dir string, args ...string) string {
 	exe, err := exec.LookPath("git")
 	if err != nil {
 		return ""

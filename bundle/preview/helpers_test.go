@@ -9,6 +9,7 @@ import (
 	"time"
 
 	"github.com/kbc-project/kbc/build"
+	"github.com/kbc-project/kbc/build/fresh"
 	"github.com/kbc-project/kbc/bundle"
 )
 
@@ -164,7 +165,7 @@ func writeResult(res *build.Result, out string) (*bundle.Manifest, error) {
 	}
 	return bundle.Write(out, &bundle.Input{Passages: res.Passages, BuiltAt: testNow, Tool: "kbc test", Files: files,
 		Counts:   map[string]int{"divergent_copies": res.Stats.Divergent, "stale": res.Stats.Stale, "expired": res.Stats.Expired, "warnings": res.Stats.Warnings},
-		Settings: map[string]any{"freshness": map[string]any{"due_soon": "30d"}}})
+		Settings: &bundle.Settings{Freshness: fresh.Policy{DueSoon: fresh.Duration{Days: 30}}}})
 }
 
 // newTestServer builds the ferry docs into a bundle and serves it, with

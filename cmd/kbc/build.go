@@ -2,14 +2,11 @@ package main
 
 import (
 	"context"
-	"crypto/sha256"
-	"encoding/hex"
 	"encoding/json"
 	"errors"
 	"flag"
 	"fmt"
 	"io"
-	iofs "io/fs"
 	"os"
 	"os/signal"
 	"path"
@@ -20,27 +17,15 @@ import (
 	"time"
 
 	"github.com/kbc-project/kbc/build"
-	"github.com/kbc-project/kbc/build/dedupe"
-	"github.com/kbc-project/kbc/build/fresh"
-	"github.com/kbc-project/kbc/bundle"
+	"github.com/kbc-project/kbc/bundle/compile"
 	"github.com/kbc-project/kbc/sources"
 )
 
-// manifestSettings is every setting that shapes a bundle, as recorded in
-// its manifest.
-type manifestSettings struct {
-	build.Settings
-	Include     []string       `json:"include,omitempty"`
-	Exclude     []string       `json:"exclude,omitempty"`
-	MaxFileSize int64          `json:"max_file_size"`
-	Duplicates  dedupe.Options `json:"duplicates"`
-	Freshness   fresh.Policy   `json:"freshness"`
-}
-
 // sourceFlags are the flags of every command that compiles a source
-// folder (build, stale). They override the config file.
+// folder (build, watch, stale). They override the config file.
 type sourceFlags struct {
 	fs               *flag.FlagSet
+	config           string
 	include, exclude multiFlag
 	maxSize          string
 	aim, maxTok      int
@@ -54,6 +39,7 @@ type sourceFlags struct {
 func addSourceFlags(fs *flag.FlagSet) *sourceFlags {
 	def := build.DefaultOptions()
 	sf := &sourceFlags{fs: fs}
+	fs.StringVar(&sf.config, "config", "", "read the settings from `FILE` (default: the nearest kbc.toml from SRC up to the repository root)")
 	fs.Var(&sf.include, "include", "only read files matching this `GLOB` (repeatable; \"**\" spans folders)")
 	fs.Var(&sf.exclude, "exclude", "skip files and folders matching this `GLOB` (repeatable)")
 	fs.StringVar(&sf.maxSize, "max-file-size", "10MB", "skip files larger than `SIZE` (B, kB, MB)")
@@ -82,37 +68,62 @@ func (sf *sourceFlags) skipOutput(src, out string) string {
 	return rel
 }
 
-// checks are the checks of one run (--max-stale and the others).
-type checks struct {
-	stale, unknown     docLimit
-	divergent, secrets bool
-}
-
-// options builds the pipeline options for src: defaults, then the config
-// file at src's root, then the flags given on the command line.
-func (sf *sourceFlags) options(src string) (build.Options, checks, error) {
-	opts := build.DefaultOptions()
-	var g checks
+// set returns the names of the flags given on the command line.
+func (sf *sourceFlags) set() map[string]bool {
 	set := map[string]bool{}
 	sf.fs.Visit(func(f *flag.Flag) { set[f.Name] = true })
-	dir, err := sources.OpenDir(src)
+	return set
+}
+
+// config loads the configuration for src (--config, else the nearest
+// kbc.toml), names the file used on stderr, and applies the flags given
+// on the command line over it. It prints what went wrong and returns the
+// exit code to stop with, or -1 to go on.
+func (sf *sourceFlags) configFor(src string, stderr io.Writer) (*compile.Config, int) {
+	if st, err := os.Stat(src); err != nil || !st.IsDir() {
+		if err == nil {
+			err = errors.New("not a folder")
+		}
+		return nil, badUsage(sf.fs, stderr, "source %s: %v", src, sources.UnwrapPath(err))
+	}
+	cfg, err := sf.load(src)
 	if err != nil {
-		return opts, g, fmt.Errorf("source %s: %v", src, unwrapPathErr(err))
+		var pe *sources.Error
+		if errors.As(err, &pe) {
+			fmt.Fprintf(stderr, "kbc %s: %s\n", sf.fs.Name(), pe.Error())
+			return nil, exitUsage
+		}
+		return nil, badUsage(sf.fs, stderr, "%v", err)
 	}
-	cfg, err := build.LoadConfig(dir)
-	dir.Close()
+	if cfg.Path != "" {
+		fmt.Fprintf(stderr, "kbc: config %s\n", cfg.Path)
+	}
+	for _, n := range cfg.Notes {
+		fmt.Fprintf(stderr, "kbc: %s\n", n)
+	}
+	return cfg, -1
+}
+
+// load loads the configuration for src and applies the flags over it,
+// printing nothing. Errors in the file are *sources.Error.
+func (sf *sourceFlags) load(src string) (*compile.Config, error) {
+	cfg, err := compile.LoadConfig(src, sf.config)
 	if err != nil {
-		return opts, g, err
+		return nil, err
 	}
-	if err := cfg.Apply(&opts); err != nil {
-		return opts, g, err
-	}
+	return cfg, sf.apply(cfg)
+}
+
+// apply sets the options and checks the flags given on the command line
+// name over those of the config file.
+func (sf *sourceFlags) apply(cfg *compile.Config) error {
+	opts, set := &cfg.Options, sf.set()
 	opts.Walk.Include = append(opts.Walk.Include, sf.include...)
 	opts.Walk.Exclude = append(opts.Walk.Exclude, sf.exclude...)
 	if set["max-file-size"] || opts.Walk.MaxSize == 0 {
 		n, err := build.ParseSize(sf.maxSize)
 		if err != nil {
-			return opts, g, fmt.Errorf("--max-file-size: %v", err)
+			return fmt.Errorf("--max-file-size: %v", err)
 		}
 		opts.Walk.MaxSize = n
 	}
@@ -123,164 +134,50 @@ func (sf *sourceFlags) options(src string) (build.Options, checks, error) {
 		opts.Settings.MaxTokens = sf.maxTok
 	}
 	if err := opts.Settings.Validate(); err != nil {
-		return opts, g, err
+		return err
 	}
 	if set["dup-threshold"] {
 		if sf.threshold <= 0 || sf.threshold > 1 {
-			return opts, g, fmt.Errorf("--dup-threshold %g is not a Jaccard similarity in (0, 1]", sf.threshold)
+			return fmt.Errorf("--dup-threshold %g is not a Jaccard similarity in (0, 1]", sf.threshold)
 		}
 		opts.Dedupe.Threshold = sf.threshold
 	}
-	limit := cfg.Gates.MaxStale
-	if set["max-stale"] {
-		limit = sf.maxStale
-	}
-	if g.stale, err = parseStaleLimit(limit); err != nil {
-		return opts, g, err
-	}
-	limit = cfg.Gates.MaxUnknown
-	if set["max-unknown"] {
-		limit = sf.maxUnknown
-	}
-	if g.unknown, err = parseUnknownLimit(limit); err != nil {
-		return opts, g, err
-	}
-	g.divergent = sf.failOnDivergent
-	if !set["fail-on-divergent"] && cfg.Gates.FailOnDivergent != nil {
-		g.divergent = *cfg.Gates.FailOnDivergent
-	}
-	g.secrets = sf.failOnSecrets
-	if !set["fail-on-secrets"] && cfg.Gates.FailOnSecrets != nil {
-		g.secrets = *cfg.Gates.FailOnSecrets
-	}
-	return opts, g, nil
+	return sf.applyChecks(&cfg.Checks)
 }
 
-// check runs the checks over a build's reports; it prints one line per
-// failed check and returns exitCheck, or exitOK.
-func (g checks) check(st *build.StalenessReport, divergent, secrets int, stderr io.Writer) int {
-	code := exitOK
-	for _, msg := range []string{
-		g.stale.check(st.Counts.StaleOrExpired(), st.Counts.Total),
-		g.unknown.check(st.Counts.Unknown, st.Counts.Total),
-		checkDivergent(g.divergent, divergent),
-		checkSecrets(g.secrets, secrets),
-	} {
-		if msg != "" {
-			fmt.Fprintln(stderr, paintFor(stderr, os.Getenv).fail("kbc: "+msg))
-			code = exitCheck
+// applyChecks sets the checks the flags given on the command line name.
+func (sf *sourceFlags) applyChecks(c *build.Checks) error {
+	set := sf.set()
+	for name, v := range map[string]struct {
+		text string
+		dst  *build.Limit
+	}{"max-stale": {sf.maxStale, &c.MaxStale}, "max-unknown": {sf.maxUnknown, &c.MaxUnknown}} {
+		if !set[name] {
+			continue
 		}
-	}
-	return code
-}
-
-// compile checks src and runs the pipeline over it, printing each bad
-// input file as one line on stderr. It returns the exit code to stop with,
-// or -1 to go on.
-// With a session, compile uses and updates the build cache of its bundle
-// folder (saved by writeBundle or, in watch mode, when watching stops).
-func compile(ctx context.Context, fs *flag.FlagSet, sf *sourceFlags, src string, sess *session, now time.Time, stderr io.Writer) (*build.Result, build.Options, checks, int) {
-	if st, err := os.Stat(src); err != nil || !st.IsDir() {
-		if err == nil {
-			err = errors.New("not a folder")
+		l, err := build.ParseLimit(v.text)
+		if err != nil {
+			return fmt.Errorf("--%s: %v", name, err)
 		}
-		return nil, build.Options{}, checks{}, badUsage(fs, stderr, "source %s: %v", src, unwrapPathErr(err))
+		*v.dst = l
 	}
-	opts, g, err := sf.options(src)
-	if err != nil {
-		var pe *sources.Error
-		if errors.As(err, &pe) {
-			pe.Path = filepath.Join(src, pe.Path)
-			fmt.Fprintln(stderr, pe.Error())
-			return nil, opts, g, exitUsage
-		}
-		return nil, opts, g, badUsage(fs, stderr, "%v", err)
+	if set["fail-on-divergent"] {
+		c.FailOnDivergent = sf.failOnDivergent
 	}
-	opts.Now = now
-	opts.GitDir = src
-	if sess != nil {
-		opts.Cache = sess.cacheFor(stderr)
+	if set["fail-on-secrets"] {
+		c.FailOnSecrets = sf.failOnSecrets
 	}
-	bar := newProgress(stderr)
-	opts.Progress = bar.update
-	// Every read goes through dir, which cannot be left by a symlink.
-	dir, err := sources.OpenDir(src)
-	if err != nil {
-		bar.finish()
-		fmt.Fprintf(stderr, "kbc %s: source %s: %v\n", fs.Name(), src, unwrapPathErr(err))
-		return nil, opts, g, exitFailure
-	}
-	res, err := build.Run(ctx, dir, opts)
-	dir.Close()
-	bar.finish()
-	if err != nil {
-		fmt.Fprintf(stderr, "kbc %s: %v\n", fs.Name(), err)
-		return nil, opts, g, exitFailure
-	}
-	return res, opts, g, -1
-}
-
-// session is what one kbc process keeps between builds of one bundle
-// folder: the build cache and, in watch mode, the bundle it last wrote.
-type session struct {
-	out   string
-	watch bool // keep the cache in memory and save it once, at the end
-
-	cache *build.Cache
-
-	// The source commit, when already asked of git for this build (watch
-	// asks again for each rebuild, as commits may land while it runs).
-	commit      string
-	dirty       bool
-	commitKnown bool
-}
-
-// toolKey names this kbc binary for the build cache and the up-to-date
-// stamp: the version and the binary's own build ID (build.BinaryID), so
-// that a changed binary with the same version string trusts neither.
-func toolKey() string { return "kbc " + version + " " + build.BinaryID() }
-
-// cacheFor returns the build cache: the one in memory when there is one,
-// else the one on disk when this kbc binary made it, else a new one. A
-// cache that cannot be read, or was made by another kbc binary, is
-// reported once and replaced: it is never trusted. (Settings key the
-// cached passages inside it, so a settings change re-splits pages without
-// parsing them again.)
-func (s *session) cacheFor(stderr io.Writer) *build.Cache {
-	tool := toolKey()
-	if s.cache.Fits(tool) {
-		return s.cache
-	}
-	c, err := build.LoadCache(bundle.CacheDir(s.out))
-	switch {
-	case errors.Is(err, build.ErrNoCache):
-		c = nil
-	case err != nil:
-		fmt.Fprintf(stderr, "kbc: build cache unreadable (%v); rebuilding it\n", err)
-		c = nil
-	case c != nil && !c.Fits(tool):
-		fmt.Fprintf(stderr, "kbc: build cache %s was made by another kbc binary; rebuilding it\n", bundle.CacheDir(s.out))
-		c = nil
-	}
-	if c == nil {
-		c = build.NewCache(tool)
-	}
-	s.cache = c
-	return c
-}
-
-// saveCache writes the build cache back when a build changed it.
-func (s *session) saveCache(stderr io.Writer) {
-	if s.cache != nil && s.cache.Changed() {
-		if err := s.cache.Save(bundle.CacheDir(s.out)); err != nil {
-			fmt.Fprintf(stderr, "kbc: could not save the build cache: %v\n", err)
-		}
-	}
+	return nil
 }
 
 // interrupted returns a context cancelled by Ctrl-C or SIGTERM.
 func interrupted() (context.Context, context.CancelFunc) {
 	return signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
+}
+
+// warnTo returns a compile.Job's Warn that prints each line on stderr.
+func warnTo(stderr io.Writer) func(string) {
+	return func(msg string) { fmt.Fprintf(stderr, "kbc: %s\n", msg) }
 }
 
 func printProblems(res *build.Result, stderr io.Writer) {
@@ -292,64 +189,6 @@ func printProblems(res *build.Result, stderr io.Writer) {
 	}
 }
 
-// writeBundle writes a build's bundle, reports and delta into the
-// session's folder and returns its manifest and delta.
-func writeBundle(sess *session, src string, res *build.Result, opts build.Options, builtAt time.Time, stderr io.Writer) (*bundle.Manifest, *bundle.Delta, error) {
-	out := sess.out
-	files, err := reportFiles(res)
-	if err != nil {
-		return nil, nil, err
-	}
-	commit, dirty := sess.commit, sess.dirty
-	if !sess.commitKnown {
-		commit, dirty = build.SourceCommit(src)
-	}
-	st := res.Stats
-	in := &bundle.Input{
-		Passages: res.Passages,
-		Settings: manifestSettings{Settings: opts.Settings, Include: opts.Walk.Include, Exclude: opts.Walk.Exclude,
-			MaxFileSize: opts.Walk.MaxSize, Duplicates: opts.Dedupe, Freshness: opts.Fresh},
-		Tool:         "kbc " + version,
-		SourceCommit: commit,
-		SourceDirty:  dirty,
-		BuiltAt:      builtAt,
-		// The names and meanings of build --json's stats (see README, "Counts").
-		Counts: map[string]int{
-			"documents": st.Documents, "empty_documents": st.Empty, "skipped": st.Skipped,
-			"warnings": st.Warnings, "boilerplate_dropped": st.BoilerplateDropped,
-			"duplicates_removed": st.Duplicates, "divergent_copies": st.Divergent, "stale": st.Stale, "expired": st.Expired,
-			"secrets_redacted": st.Secrets, "hidden_dropped": st.Hidden, "assistant_lints": st.Lints,
-		},
-		Files:   files,
-		Catalog: true,
-	}
-	// Like mkdir -p for the folder that will hold the bundle.
-	if err := os.MkdirAll(filepath.Dir(filepath.Clean(out)), 0o755); err != nil {
-		return nil, nil, fmt.Errorf("cannot create the folder for %s: %v", out, unwrapPathErr(err))
-	}
-	// The bundle replaced: its manifest and the catalog of its passages
-	// saved beside it, which is all the delta and the index update read.
-	prior, err := bundle.ReadPrior(out)
-	if err != nil {
-		fmt.Fprintf(stderr, "kbc: the bundle in %s cannot be read (%v); the delta lists every passage as added\n", out, err)
-		prior = nil
-	}
-	in.Prior = prior
-	m, err := bundle.Write(out, in)
-	if err != nil {
-		return nil, nil, err
-	}
-	if !sess.watch {
-		sess.saveCache(stderr)
-	}
-	var delta bundle.Delta
-	data, err := os.ReadFile(filepath.Join(out, bundle.DeltaFile))
-	if err == nil {
-		err = json.Unmarshal(data, &delta)
-	}
-	return m, &delta, err
-}
-
 func runBuild(args []string, stdout, stderr io.Writer) int {
 	fs := newFlags("build", "build SRC -o OUT [flags]",
 		"Build reads every Markdown, MDX and HTML file under SRC, cleans it, splits it into\n"+
@@ -357,7 +196,8 @@ func runBuild(args []string, stdout, stderr io.Writer) int {
 			"and writes the bundle folder OUT: manifest.json, passages.jsonl, the search index\n"+
 			"and reports (staleness, duplicates, boilerplate). OUT is replaced only by a\n"+
 			"complete new bundle; a failed build leaves an earlier one untouched. Settings\n"+
-			"come from SRC/kbc.toml when present; flags override it. A failed check exits 3\n"+
+			"come from --config FILE, else from the nearest kbc.toml in SRC or above it up to\n"+
+			"the repository root (named on stderr); flags override it. A failed check exits 3\n"+
 			"after the bundle is written.",
 		"kbc build docs -o out/docs-bundle --exclude 'drafts/**' --max-stale 10%\n"+
 			"kbc build docs -o out/docs-bundle --strict --fail-on-secrets --json", stderr)
@@ -375,70 +215,47 @@ func runBuild(args []string, stdout, stderr io.Writer) int {
 	if code >= 0 {
 		return code
 	}
-	builtAt, err := buildTime(os.Getenv("SOURCE_DATE_EPOCH"), time.Now)
+	epoch := os.Getenv("SOURCE_DATE_EPOCH")
+	builtAt, err := buildTime(epoch, time.Now)
 	if err != nil {
 		return badUsage(fs, stderr, "%v", err)
 	}
 	sf.skipOutput(src, *out)
-	start := time.Now()
-	// A bundle whose inputs have not changed since it was built is left as
-	// it is, as make would, once its files check out against its manifest.
-	sess := &session{out: *out}
-	sess.commit, sess.dirty = build.SourceCommit(src)
-	sess.commitKnown = true
-	var inputs string
-	var walked []sources.File
-	looked := time.Now()
-	if opts, g, err := sf.options(src); err == nil && !*strict {
-		extra := fmt.Sprintf("%s\x00%s %t\x00%s", toolKey(), sess.commit, sess.dirty, os.Getenv("SOURCE_DATE_EPOCH"))
-		if dir, err := sources.OpenDir(src); err == nil {
-			inputs, walked = build.InputsDigest(dir, opts, extra)
-			code, ok := upToDate(*out, src, dir, inputs, walked, g, *asJSON, *verbose, start, stdout, stderr)
-			dir.Close()
-			if ok {
-				return code
-			}
-		}
-	}
-	ctx, stop := interrupted()
-	defer stop()
-	res, opts, g, code := compile(ctx, fs, sf, src, sess, builtAt, stderr)
+	cfg, code := sf.configFor(src, stderr)
 	if code >= 0 {
 		return code
 	}
-	printProblems(res, stderr)
-	if *strict && len(res.Problems) > 0 {
-		fmt.Fprintf(stderr, "kbc build: %v\n", res.Strict())
+	start := time.Now()
+	ctx, stop := interrupted()
+	defer stop()
+	bar := newProgress(stderr)
+	res, err := compile.Build(ctx, compile.Job{Src: src, Out: *out, Config: cfg, Now: builtAt, FixedTime: epoch != "",
+		Tool: "kbc " + version, Strict: *strict, Progress: bar.update, Warn: warnTo(stderr)})
+	bar.finish()
+	if res != nil {
+		if res.Build != nil {
+			printProblems(res.Build, stderr)
+		} else {
+			for _, p := range res.Problems {
+				fmt.Fprintln(stderr, p)
+			}
+		}
+	}
+	if errors.Is(err, compile.ErrStrict) {
+		fmt.Fprintf(stderr, "kbc build: %v\n", res.Build.Strict())
 		return exitFailure
 	}
-	m, delta, err := writeBundle(sess, src, res, opts, builtAt, stderr)
 	if err != nil {
 		fmt.Fprintf(stderr, "kbc build: %v\n", err)
 		return exitFailure
 	}
-	sum := summary{Source: src, Out: *out, BundleID: m.BundleID, Stats: res.Stats,
-		Added: len(delta.Added), Changed: len(delta.Changed), Removed: len(delta.Removed),
-		BoilerplateTexts: len(res.Boilerplate), Staleness: res.Staleness.Counts,
-		Bands: res.Duplicates.Bands, Rows: res.Duplicates.Rows, Threshold: res.Duplicates.Threshold,
-		CatchAtThreshold: res.Duplicates.CatchAtThreshold, CatchAtHalf: res.Duplicates.CatchAtHalf,
-		Seconds: time.Since(start).Seconds()}
-	if inputs != "" {
-		data, _ := json.Marshal(sum)
-		st := &bundle.Stamp{Inputs: inputs, Read: looked, BundleID: m.BundleID, Manifest: bundle.ManifestHash(*out), Summary: data}
-		for _, p := range res.Problems {
-			st.Problems = append(st.Problems, p.Error())
-		}
-		for _, f := range build.Racy(walked, looked) {
-			if h := sess.cache.FileHash(f.Path); h != "" {
-				if st.Racy == nil {
-					st.Racy = map[string]string{}
-				}
-				st.Racy[f.Path] = h
-			}
-		}
-		if err := bundle.WriteStamp(*out, st); err != nil {
-			fmt.Fprintf(stderr, "kbc build: could not record the build's inputs: %v\n", err)
-		}
+	sum := summary{Source: src, Out: *out, BundleID: res.BundleID, Stats: res.Summary.Stats,
+		BoilerplateTexts: res.Summary.BoilerplateTexts, Staleness: res.Summary.Staleness,
+		Bands: res.Summary.Bands, Rows: res.Summary.Rows, Threshold: res.Summary.Threshold,
+		CatchAtThreshold: res.Summary.CatchAtThreshold, CatchAtHalf: res.Summary.CatchAtHalf,
+		UpToDate: res.UpToDate, Seconds: time.Since(start).Seconds()}
+	if res.Delta != nil {
+		sum.Added, sum.Changed, sum.Removed = len(res.Delta.Added), len(res.Delta.Changed), len(res.Delta.Removed)
 	}
 	if *asJSON {
 		enc := json.NewEncoder(stdout)
@@ -447,62 +264,8 @@ func runBuild(args []string, stdout, stderr io.Writer) int {
 	} else {
 		sum.print(stdout, *verbose)
 	}
-	return g.check(res.Staleness, res.Stats.Divergent, res.Stats.Secrets, stderr)
+	return printFailures(res.Failures, stderr)
 }
-
-// upToDate reports whether the bundle in out was built from exactly these
-// inputs and still matches its manifest; if so it prints the earlier
-// build's warnings and summary (no passage added, changed or removed),
-// runs the checks on the bundle's reports judged now, and returns the exit
-// code. Files changed within a second of the last look are not trusted
-// by their size and time alone: their bytes must be those the last build
-// read (Stamp.Racy), or the build runs.
-func upToDate(out, src string, dir *sources.Dir, inputs string, walked []sources.File, g checks, asJSON, verbose bool, start time.Time, stdout, stderr io.Writer) (int, bool) {
-	st := bundle.ReadStamp(out)
-	if st == nil || st.Inputs != inputs || bundle.ManifestHash(out) != st.Manifest {
-		return 0, false
-	}
-	for _, f := range build.Racy(walked, st.Read) {
-		data, err := iofs.ReadFile(dir, f.Target)
-		sum := sha256.Sum256(data)
-		if err != nil || st.Racy[f.Path] != hex.EncodeToString(sum[:]) {
-			return 0, false
-		}
-	}
-	if bad, err := bundle.Verify(out); err != nil || len(bad) > 0 {
-		return 0, false
-	}
-	var sum summary
-	if json.Unmarshal(st.Summary, &sum) != nil {
-		return 0, false
-	}
-	stale, divergent, secrets, err := readReports(out)
-	if err != nil {
-		return 0, false
-	}
-	now, err := buildTime(os.Getenv("SOURCE_DATE_EPOCH"), time.Now)
-	if err != nil {
-		return 0, false
-	}
-	for _, p := range st.Problems {
-		fmt.Fprintln(stderr, p)
-	}
-	stale = stale.At(now)
-	sum.Added, sum.Changed, sum.Removed = 0, 0, 0
-	sum.Staleness, sum.UpToDate = stale.Counts, true
-	sum.Seconds = time.Since(start).Seconds()
-	if asJSON {
-		enc := json.NewEncoder(stdout)
-		enc.SetIndent("", "  ")
-		enc.Encode(sum)
-	} else {
-		sum.print(stdout, verbose)
-	}
-	return g.check(stale, divergent, secrets, stderr), true
-}
-
-// reportFiles renders a build's reports as bundle files.
-func reportFiles(res *build.Result) (map[string][]byte, error) { return bundle.ReportFiles(res) }
 
 // summary is what build prints when it is done.
 type summary struct {
@@ -534,7 +297,7 @@ func (s summary) print(w io.Writer, verbose bool) {
 	} else {
 		fmt.Fprintf(w, "%s %s -> %s\n", p.strong("built"), s.Source, s.Out)
 	}
-	fmt.Fprintf(w, "  documents    %d read, %d skipped (%s)", st.Documents, st.Skipped, sizeString(st.SourceBytes))
+	fmt.Fprintf(w, "  documents    %d read, %d skipped (%s)", st.Documents, st.Skipped, sources.SizeString(st.SourceBytes))
 	if st.Reused > 0 {
 		fmt.Fprintf(w, "; %d unchanged, taken from the cache", st.Reused)
 	}
@@ -579,22 +342,4 @@ func buildTime(epoch string, now func() time.Time) (time.Time, error) {
 		return time.Time{}, fmt.Errorf("SOURCE_DATE_EPOCH=%q is not a whole number of seconds since 1970-01-01", epoch)
 	}
 	return time.Unix(n, 0).UTC(), nil
-}
-
-func sizeString(n int64) string {
-	switch {
-	case n >= 1<<20:
-		return fmt.Sprintf("%.1f MB", float64(n)/(1<<20))
-	case n >= 1<<10:
-		return fmt.Sprintf("%.1f kB", float64(n)/(1<<10))
-	}
-	return fmt.Sprintf("%d B", n)
-}
-
-func unwrapPathErr(err error) error {
-	var pe *os.PathError
-	if errors.As(err, &pe) {
-		return pe.Err
-	}
-	return err
 }

@@ -15,6 +15,7 @@ import (
 	"github.com/kbc-project/kbc/bundle"
 	"github.com/kbc-project/kbc/bundle/store"
 	"github.com/kbc-project/kbc/internal/printable"
+	"github.com/kbc-project/kbc/sources"
 )
 
 // storeKinds is the part of every store command's help that names the stores.
@@ -121,7 +122,7 @@ func runPublish(args []string, stdout, stderr io.Writer) int {
 		return exitOK
 	}
 	fmt.Fprintf(stdout, "published %s to %s\n", res.BundleID, s)
-	fmt.Fprintf(stdout, "  objects   %d uploaded (%s), %d already there\n", res.Uploaded, sizeString(res.UploadedBytes), res.Skipped)
+	fmt.Fprintf(stdout, "  objects   %d uploaded (%s), %d already there\n", res.Uploaded, sources.SizeString(res.UploadedBytes), res.Skipped)
 	if res.FilesDigest != "" {
 		fmt.Fprintf(stdout, "  digest    %s (kbc pull --digest pins every file)\n", res.FilesDigest)
 	}
@@ -169,7 +170,7 @@ func runPull(args []string, stdout, stderr io.Writer) int {
 	defer s.Close()
 	// Like mkdir -p for the folder that will hold the bundle, as build does.
 	if err := os.MkdirAll(filepath.Dir(filepath.Clean(pos[1])), 0o755); err != nil {
-		fmt.Fprintf(stderr, "kbc pull: cannot create the folder for %s: %v\n", pos[1], unwrapPathErr(err))
+		fmt.Fprintf(stderr, "kbc pull: cannot create the folder for %s: %v\n", pos[1], sources.UnwrapPath(err))
 		return exitFailure
 	}
 	m, err := s.Pull(ctx, pos[1], store.Ref{Pointer: *tag, ID: *id, Digest: *digest})

@@ -1,26 +1,26 @@
 package main
 
 import (
-	"encoding/json"
-	"errors"
+	"flag"
 	"fmt"
 	"io"
-	"io/fs"
 	"os"
 	"path/filepath"
 	"time"
 
 	"github.com/kbc-project/kbc/build"
 	"github.com/kbc-project/kbc/bundle"
+	"github.com/kbc-project/kbc/bundle/compile"
 )
 
 func runStale(args []string, stdout, stderr io.Writer) int {
-	fs := newFlags("stale", "stale SRC|OUT [--json] [--max-stale N|N%] [--max-unknown N|N%] [--fail-on-divergent]",
+	fs := newFlags("stale", "stale SRC|OUT [--json] [--config FILE] [--max-stale N|N%] [--max-unknown N|N%] [--fail-on-divergent]",
 		"Stale prints the staleness report: every document's freshness, worst first and\n"+
 			"grouped by owner, with counts per status and an age histogram. Given a source\n"+
 			"folder it reads and dates the pages (nothing is written); given a bundle it\n"+
 			"judges the dates the bundle recorded again at the current time\n"+
-			"(SOURCE_DATE_EPOCH when set). Checks exit 3 when crossed.",
+			"(SOURCE_DATE_EPOCH when set) with the checks it was built with, which\n"+
+			"--config FILE and the check flags override. A failed check exits 3.",
 		"kbc stale docs --max-stale 5 --fail-on-divergent\n"+
 			"kbc stale out --json", stderr)
 	asJSON := fs.Bool("json", false, "print the report as JSON")
@@ -37,35 +37,31 @@ func runStale(args []string, stdout, stderr io.Writer) int {
 		return badUsage(fs, stderr, "%v", err)
 	}
 	var st *build.StalenessReport
-	var divergent, secrets int
-	var g checks
+	var divergent int
+	var checks []build.CheckFailure
 	if _, err := os.Stat(filepath.Join(pos[0], bundle.ManifestFile)); err == nil {
-		st, divergent, secrets, err = readReports(pos[0])
+		reps, failures, code := bundleReports(fs, sf, pos[0], now, stderr)
+		if code >= 0 {
+			return code
+		}
+		st, divergent, checks = reps.Staleness, reps.Divergent, failures
+	} else {
+		cfg, code := sf.configFor(pos[0], stderr)
+		if code >= 0 {
+			return code
+		}
+		ctx, stop := interrupted()
+		defer stop()
+		bar := newProgress(stderr)
+		res, err := compile.Analyze(ctx, compile.Job{Src: pos[0], Config: cfg, Now: now, Progress: bar.update})
+		bar.finish()
 		if err != nil {
 			fmt.Fprintf(stderr, "kbc stale: %v\n", err)
 			return exitFailure
 		}
-		st = st.At(now)
-		if g.stale, err = parseStaleLimit(sf.maxStale); err != nil {
-			return badUsage(fs, stderr, "%v", err)
-		}
-		if g.unknown, err = parseUnknownLimit(sf.maxUnknown); err != nil {
-			return badUsage(fs, stderr, "%v", err)
-		}
-		g.divergent, g.secrets = sf.failOnDivergent, sf.failOnSecrets
-		if g.secrets && secrets < 0 {
-			fmt.Fprintf(stderr, "kbc stale: bundle %s has no %s (built by an older kbc): rebuild it to check for secrets\n", pos[0], bundle.SecretsJSON)
-			return exitFailure
-		}
-	} else {
-		ctx, stop := interrupted()
-		defer stop()
-		res, _, gg, code := compile(ctx, fs, sf, pos[0], nil, now, stderr)
-		if code >= 0 {
-			return code
-		}
 		printProblems(res, stderr)
-		st, divergent, secrets, g = res.Staleness, res.Stats.Divergent, res.Stats.Secrets, gg
+		st, divergent = res.Staleness, res.Stats.Divergent
+		checks = cfg.Checks.Evaluate(build.CheckInput{Staleness: st.Counts, Divergent: divergent, Secrets: res.Stats.Secrets})
 	}
 	if *asJSON {
 		data, err := bundle.MarshalReport(st)
@@ -80,31 +76,34 @@ func runStale(args []string, stdout, stderr io.Writer) int {
 			fmt.Fprintf(stdout, "\n%d near-duplicate pair(s) differ in numbers, versions, dates or units: see the duplicate report.\n", divergent)
 		}
 	}
-	return g.check(st, divergent, secrets, stderr)
+	return printFailures(checks, stderr)
 }
 
-// readReports reads a bundle's staleness report and counts its divergent
-// copies and the credentials its build found (-1 when it has no secrets report).
-func readReports(dir string) (*build.StalenessReport, int, int, error) {
-	var st build.StalenessReport
-	var dup build.DuplicateReport
-	var sec build.SecretsReport
-	noSecrets := false // a bundle from before the secrets report
-	for name, v := range map[string]any{bundle.StalenessJSON: &st, bundle.DuplicatesJSON: &dup, bundle.SecretsJSON: &sec} {
-		data, err := os.ReadFile(filepath.Join(dir, filepath.FromSlash(name)))
-		if name == bundle.SecretsJSON && errors.Is(err, fs.ErrNotExist) {
-			noSecrets = true
-			continue
-		}
+// bundleReports judges the bundle in dir again at now, with the checks
+// it was built with, overridden by --config FILE when given and then by
+// the check flags.
+func bundleReports(fs *flag.FlagSet, sf *sourceFlags, dir string, now time.Time, stderr io.Writer) (*compile.Reports, []build.CheckFailure, int) {
+	checks, err := compile.BundleChecks(dir)
+	if err != nil {
+		fmt.Fprintf(stderr, "kbc stale: %v\n", err)
+		return nil, nil, exitFailure
+	}
+	if sf.config != "" {
+		cfg, err := compile.LoadConfig(dir, sf.config)
 		if err != nil {
-			return nil, 0, 0, fmt.Errorf("bundle %s has no %s (built by an older kbc?): %v", dir, name, unwrapPathErr(err))
+			fmt.Fprintf(stderr, "kbc stale: %v\n", err)
+			return nil, nil, exitUsage
 		}
-		if err := json.Unmarshal(data, v); err != nil {
-			return nil, 0, 0, fmt.Errorf("%s: %v", filepath.Join(dir, name), err)
-		}
+		fmt.Fprintf(stderr, "kbc: config %s\n", cfg.Path)
+		checks = cfg.Checks
 	}
-	if noSecrets {
-		return &st, len(dup.Divergent), -1, nil
+	if err := sf.applyChecks(&checks); err != nil {
+		return nil, nil, badUsage(fs, stderr, "%v", err)
 	}
-	return &st, len(dup.Divergent), sec.Total, nil
+	reps, failures, err := compile.Judge(dir, now, &checks)
+	if err != nil {
+		fmt.Fprintf(stderr, "kbc stale: %v\n", err)
+		return nil, nil, exitFailure
+	}
+	return reps, failures, -1
 }

@@ -135,3 +135,36 @@ func TestWatchJSON(t *testing.T) {
 		t.Errorf("stderr:\n%s", stderr.String())
 	}
 }
+
+// TestWatchChecks: the check flags watch accepts run after every rebuild;
+// a failure is printed and watching goes on.
+func TestWatchChecks(t *testing.T) {
+	src := t.TempDir()
+	out := filepath.Join(t.TempDir(), "b")
+	t.Setenv("SOURCE_DATE_EPOCH", "1796083200") // 2026-12-01
+	page := func(name, updated string) {
+		t.Helper()
+		text := "---\nupdated: " + updated + "\n---\n# " + name + "\n\nThe " + name + " rota is pinned by the dock office door every Monday.\n"
+		if err := os.WriteFile(filepath.Join(src, name+".md"), []byte(text), 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	page("fresh", "2026-11-01")
+	ctx, cancel := context.WithCancel(context.Background())
+	defer cancel()
+	var stdout, stderr lockedBuffer
+	done := make(chan int)
+	go func() {
+		done <- watchUntil(ctx, []string{src, "-o", out, "--debounce", "20ms", "--max-stale", "0"}, &stdout, &stderr)
+	}()
+	waitFor(t, &stdout, "watching ", 1)
+	if strings.Contains(stderr.String(), "check max-stale failed") {
+		t.Fatalf("the check failed with nothing stale:\n%s", stderr.String())
+	}
+	page("old", "2020-01-01")
+	waitFor(t, &stderr, "kbc watch: check max-stale failed: 1 of 2 documents stale or expired (50.0%), limit 0 (over by 1)", 1)
+	cancel()
+	if code := <-done; code != exitOK {
+		t.Fatalf("exit %d; stderr:\n%s", code, stderr.String())
+	}
+}

@@ -15,6 +15,7 @@ import (
 	"golang.org/x/net/netutil"
 
 	"github.com/kbc-project/kbc/build"
+	"github.com/kbc-project/kbc/bundle/compile"
 	"github.com/kbc-project/kbc/bundle/preview"
 	"github.com/kbc-project/kbc/watch"
 )
@@ -32,7 +33,10 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 			"changes, after a quiet period. After each rebuild it prints one line: time taken,\n"+
 			"passages added, changed and removed, new warnings, and changes in stale pages and\n"+
 			"divergent copies. A page that does not parse while being edited is named with its\n"+
-			"path:line and the last good bundle stays. Ctrl-C stops it; the last complete\n"+
+			"path:line and the last good bundle stays. The checks (--max-stale and the\n"+
+			"others, or [checks] in the config) run after every rebuild: each failure is\n"+
+			"printed on stderr and watching goes on. The config file is read again for each\n"+
+			"rebuild. Ctrl-C stops it; the last complete\n"+
 			"bundle is left in OUT.",
 		"kbc watch docs -o /tmp/docs-bundle --debounce 300ms\n"+
 			"kbc watch docs -o /tmp/docs-bundle --serve 127.0.0.1:8470", stderr)
@@ -85,10 +89,18 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 	}
 	defer w.Close()
 
+	cfg, code := sf.configFor(src, stderr)
+	if code >= 0 {
+		return code
+	}
 	// The build cache stays in memory between rebuilds and is saved once,
 	// when watching stops.
-	sess := &session{out: *out, watch: true}
-	defer sess.saveCache(stderr)
+	sess := &compile.Session{}
+	defer func() {
+		if err := sess.Save(*out); err != nil {
+			fmt.Fprintf(stderr, "kbc: could not save the build cache: %v\n", err)
+		}
+	}()
 	var last *build.Result
 	news := stdout // lines about watching; with --json stdout holds only the builds
 	if *asJSON {
@@ -96,6 +108,7 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 	}
 	var pv *preview.Server // the live preview, when serving
 	seen := map[string]bool{}
+	reload := false // the first build uses the config read above
 	rebuild := func(ctx context.Context) {
 		start := time.Now()
 		now, err := buildTime(os.Getenv("SOURCE_DATE_EPOCH"), time.Now)
@@ -103,28 +116,44 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 			fmt.Fprintf(stderr, "kbc watch: %v\n", err)
 			return
 		}
-		res, opts, _, code := compile(ctx, fs, sf, src, sess, now, stderr)
-		if code >= 0 {
-			return // compile said why; the last good bundle stays
-		}
-		fresh := 0
-		for _, p := range res.Problems {
-			if !seen[p.Error()] {
-				seen[p.Error()] = true
-				fresh++
-				fmt.Fprintln(stderr, p.Error())
+		// The config is read again for each rebuild, so an edit to a
+		// kbc.toml inside SRC applies at once (one outside SRC is not
+		// watched: its edits apply with the next change in SRC).
+		if reload {
+			if cfg, err = sf.load(src); err != nil {
+				fmt.Fprintf(stderr, "kbc watch: %v (the last good bundle stays)\n", err)
+				return
 			}
 		}
-		m, delta, err := writeBundle(sess, src, res, opts, now, stderr)
+		reload = true
+		bar := newProgress(stderr)
+		r, err := compile.Build(ctx, compile.Job{Src: src, Out: *out, Config: cfg, Now: now, FixedTime: os.Getenv("SOURCE_DATE_EPOCH") != "",
+			Tool: "kbc " + version, Force: true, Session: sess, Progress: bar.update, Warn: warnTo(stderr)})
+		bar.finish()
+		fresh := 0
+		if r != nil {
+			for _, p := range r.Problems {
+				if !seen[p] {
+					seen[p] = true
+					fresh++
+					fmt.Fprintln(stderr, p)
+				}
+			}
+		}
 		if err != nil {
 			fmt.Fprintf(stderr, "kbc watch: %v (the last good bundle stays)\n", err)
 			return
 		}
+		res, delta := r.Build, r.Delta
 		ev := watchEvent{Event: "rebuilt", Time: time.Now().UTC().Format(time.RFC3339), Seconds: time.Since(start).Seconds(),
 			Added: len(delta.Added), Changed: len(delta.Changed), Removed: len(delta.Removed), NewWarnings: fresh,
-			BundleID: m.BundleID, Stale: res.Stats.Stale, Expired: res.Stats.Expired, Divergent: res.Stats.Divergent}
+			BundleID: r.BundleID, Stale: res.Stats.Stale, Expired: res.Stats.Expired, Divergent: res.Stats.Divergent}
 		if last == nil {
 			ev.Event = "built"
+		}
+		for _, f := range r.Failures {
+			ev.FailedChecks = append(ev.FailedChecks, f.Msg)
+			fmt.Fprintf(stderr, "kbc watch: %s\n", f.Msg)
 		}
 		if *asJSON {
 			json.NewEncoder(stdout).Encode(ev)
@@ -195,6 +224,9 @@ type watchEvent struct {
 	Stale       int     `json:"stale"`
 	Expired     int     `json:"expired"`
 	Divergent   int     `json:"divergent_copies"`
+	// FailedChecks are the checks this build failed, one line each (also
+	// printed on stderr); watching goes on.
+	FailedChecks []string `json:"failed_checks,omitempty"`
 }
 
 // line is the event as one line of text; against the last build it names
