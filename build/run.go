@@ -18,6 +18,7 @@ import (
 
 	"github.com/kbc-project/kbc/build/dedupe"
 	"github.com/kbc-project/kbc/build/fresh"
+	"github.com/kbc-project/kbc/build/secrets"
 	"github.com/kbc-project/kbc/sources"
 )
 
@@ -154,6 +155,7 @@ func Run(ctx context.Context, fsys fs.FS, opts Options) (*Result, error) {
 	if err := foldStage(ds, opts.Dedupe, res); err != nil {
 		return nil, err
 	}
+	redactProblems(res.Problems)
 	sources.SortErrors(res.Problems)
 	res.Stats.Documents = len(ds.docs)
 	res.Stats.Passages = len(res.Passages)
@@ -525,4 +527,17 @@ func (r *Result) Strict() error {
 		return nil
 	}
 	return fmt.Errorf("%d bad input file(s) with --strict; no bundle written", len(r.Problems))
+}
+
+// redactProblems removes credentials from the warnings' messages, as from
+// passages: a warning may quote the text it could not use (a front matter
+// value), and every output that prints warnings would show it. A warning
+// whose message held one loses its underlying error too, whose text may
+// hold the same value.
+func redactProblems(problems []*sources.Error) {
+	for _, p := range problems {
+		if msg, found := secrets.Redact(p.Msg); len(found) > 0 {
+			p.Msg, p.Err = msg, errors.New(msg)
+		}
+	}
 }
