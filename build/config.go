@@ -25,6 +25,11 @@ const MaxConfigSize = 64 << 10
 // field keeps its default, and command-line flags override the file.
 type Config struct {
 	Build struct {
+		PassageTokens    *int `toml:"passage_tokens"`
+		PassageMaxTokens *int `toml:"passage_max_tokens"`
+		// AimTokens and MaxTokens are the old names of PassageTokens and
+		// PassageMaxTokens, still read in this release (with a note); the
+		// new name wins when both are set.
 		AimTokens           *int     `toml:"aim_tokens"`
 		MaxTokens           *int     `toml:"max_tokens"`
 		MinTokens           *int     `toml:"min_tokens"`
@@ -145,6 +150,11 @@ func ParseConfigFile(name string, data []byte) (*Config, error) {
 		}
 		return nil, &sources.Error{Path: name, Line: c.Line(key), Msg: msg}
 	}
+	for old, now := range map[string]string{"aim_tokens": "passage_tokens", "max_tokens": "passage_max_tokens"} {
+		if md.IsDefined("build", old) {
+			c.Notes = append(c.Notes, fmt.Sprintf("%s:%d: build.%s is now called %s; the old name is still read in this release", name, c.Line("build."+old), old, now))
+		}
+	}
 	if md.IsDefined("gates") {
 		c.Notes = append(c.Notes, fmt.Sprintf("%s:%d: the [gates] section is now called [checks]; [gates] is still read in this release", name, c.Line("gates")))
 	}
@@ -208,7 +218,9 @@ func keyLines(data []byte) map[string]int {
 func (c *Config) Apply(o *Options) error {
 	b := c.Build
 	setInt(&o.Settings.AimTokens, b.AimTokens)
+	setInt(&o.Settings.AimTokens, b.PassageTokens)
 	setInt(&o.Settings.MaxTokens, b.MaxTokens)
+	setInt(&o.Settings.MaxTokens, b.PassageMaxTokens)
 	setInt(&o.Settings.MinTokens, b.MinTokens)
 	setInt(&o.Settings.BoilerplateMinPages, b.BoilerplateMinPages)
 	if b.BoilerplateShare != nil {

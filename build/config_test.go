@@ -1,6 +1,7 @@
 package build
 
 import (
+	"strings"
 	"testing"
 	"testing/fstest"
 )
@@ -108,5 +109,32 @@ func TestParseSize(t *testing.T) {
 		if _, err := ParseSize(in); err == nil {
 			t.Errorf("ParseSize(%q) accepted", in)
 		}
+	}
+}
+
+// TestConfigPassageTokenNames: passage_tokens and passage_max_tokens size
+// passages; the old names aim_tokens and max_tokens still work for one
+// release with a note, and the new name wins when both are set.
+func TestConfigPassageTokenNames(t *testing.T) {
+	c, err := ParseConfigFile("kbc.toml", []byte("[build]\naim_tokens = 100\npassage_tokens = 120\nmax_tokens = 400\n"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	o := DefaultOptions()
+	if err := c.Apply(&o); err != nil {
+		t.Fatal(err)
+	}
+	if o.Settings.AimTokens != 120 || o.Settings.MaxTokens != 400 {
+		t.Errorf("aim %d max %d, want 120 400", o.Settings.AimTokens, o.Settings.MaxTokens)
+	}
+	notes := strings.Join(c.Notes, "\n")
+	for _, want := range []string{"kbc.toml:2: build.aim_tokens is now called passage_tokens", "kbc.toml:4: build.max_tokens is now called passage_max_tokens"} {
+		if !strings.Contains(notes, want) {
+			t.Errorf("notes lack %q:\n%s", want, notes)
+		}
+	}
+	c, err = ParseConfigFile("kbc.toml", []byte("[build]\npassage_tokens = 120\npassage_max_tokens = 400\n"))
+	if err != nil || len(c.Notes) != 0 {
+		t.Errorf("new names: %v, notes %q", err, c.Notes)
 	}
 }

@@ -121,6 +121,8 @@ func (c *Config) ApplyChecks(ch *Checks) error {
 // with what it takes and an example, for errors about a value of the
 // wrong kind.
 var configKeys = map[string]string{
+	"build.passage_tokens":        "takes a whole number of tokens, e.g. 300",
+	"build.passage_max_tokens":    "takes a whole number of tokens, e.g. 512",
 	"build.aim_tokens":            "takes a whole number of tokens, e.g. 300",
 	"build.max_tokens":            "takes a whole number of tokens, e.g. 512",
 	"build.min_tokens":            "takes a whole number of tokens, e.g. 48",

@@ -28,8 +28,8 @@ so "kbc build DIR" works with none; flags given on the command line win over the
 file. A bad line is named as kbc.toml:LINE.
 
   [build]
-  aim_tokens = 300              # passage size to aim for (--passage-tokens)
-  max_tokens = 512              # largest passage (--passage-max-tokens)
+  passage_tokens = 300          # passage size to aim for (--passage-tokens)
+  passage_max_tokens = 512      # largest passage (--passage-max-tokens)
   exclude = ["drafts/**"]       # globs to skip (--exclude)
   max_file_size = "10MB"        # larger files are skipped (--max-file-size)
 
