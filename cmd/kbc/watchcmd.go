@@ -101,106 +101,24 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 			fmt.Fprintf(stderr, "kbc: could not save the build cache: %v\n", err)
 		}
 	}()
-	var last *build.Result
+	wb := &watchBuilds{sf: sf, src: src, out: *out, cfg: cfg, sess: sess, asJSON: *asJSON, stdout: stdout, stderr: stderr, seen: map[string]bool{}}
 	news := stdout // lines about watching; with --json stdout holds only the builds
 	if *asJSON {
 		news = stderr
 	}
-	var pv *preview.Server // the live preview, when serving
-	seen := map[string]bool{}
-	reload := false // the first build uses the config read above
-	rebuild := func(ctx context.Context) {
-		start := time.Now()
-		now, err := buildTime(os.Getenv("SOURCE_DATE_EPOCH"), time.Now)
-		if err != nil {
-			fmt.Fprintf(stderr, "kbc watch: %v\n", err)
-			return
-		}
-		// The config is read again for each rebuild, so an edit to a
-		// kbc.toml inside SRC applies at once (one outside SRC is not
-		// watched: its edits apply with the next change in SRC).
-		if reload {
-			if cfg, err = sf.load(src); err != nil {
-				fmt.Fprintf(stderr, "kbc watch: %v (the last good bundle stays)\n", err)
-				return
-			}
-		}
-		reload = true
-		bar := newProgress(stderr)
-		r, err := compile.Build(ctx, compile.Job{Src: src, Out: *out, Config: cfg, Now: now, FixedTime: os.Getenv("SOURCE_DATE_EPOCH") != "",
-			Tool: "kbc " + version, Force: true, Session: sess, Progress: bar.update, Warn: warnTo(stderr)})
-		bar.finish()
-		fresh := 0
-		if r != nil {
-			for _, p := range r.Problems {
-				if !seen[p] {
-					seen[p] = true
-					fresh++
-					fmt.Fprintln(stderr, p)
-				}
-			}
-		}
-		if err != nil {
-			fmt.Fprintf(stderr, "kbc watch: %v (the last good bundle stays)\n", err)
-			return
-		}
-		res, delta := r.Build, r.Delta
-		ev := watchEvent{Event: "rebuilt", Time: time.Now().UTC().Format(time.RFC3339), Seconds: time.Since(start).Seconds(),
-			Added: len(delta.Added), Changed: len(delta.Changed), Removed: len(delta.Removed), NewWarnings: fresh,
-			BundleID: r.BundleID, Stale: res.Stats.Stale, Expired: res.Stats.Expired, Divergent: res.Stats.Divergent}
-		if last == nil {
-			ev.Event = "built"
-		}
-		for _, f := range r.Failures {
-			ev.FailedChecks = append(ev.FailedChecks, f.Msg)
-			fmt.Fprintf(stderr, "kbc watch: %s\n", f.Msg)
-		}
-		if *asJSON {
-			json.NewEncoder(stdout).Encode(ev)
-		} else {
-			fmt.Fprintln(stdout, ev.line(last, res))
-		}
-		last = res
-		if pv != nil {
-			pv.SetWarnings(res.Problems)
-			if err := pv.Reload(*out); err != nil {
-				fmt.Fprintf(stderr, "kbc watch: preview: %v\n", err)
-			}
-		}
-	}
-	rebuild(ctx)
+	wb.rebuild(ctx)
 	if ln != nil {
-		if pv, err = preview.New(*out, audiences...); err != nil {
+		stop, err := wb.servePreview(ln, audiences)
+		if err != nil {
 			fmt.Fprintf(stderr, "kbc watch: %v\n", err)
 			return exitFailure
 		}
-		// The preview shows a hit's source lines from SRC, and the first
-		// build's warnings until the next one.
-		pv.Source = src
-		if last != nil {
-			pv.SetWarnings(last.Problems)
-		}
-		// Idle keep-alive connections are closed after a while, and the
-		// connections open at once are capped (beyond the event streams'
-		// own cap, which answers 503), so a flood of connections waits in
-		// the kernel's queue instead of using up file descriptors.
-		hs := &http.Server{Handler: pv.Handler(), ReadHeaderTimeout: 10 * time.Second, IdleTimeout: time.Minute}
-		go func() {
-			if err := hs.Serve(netutil.LimitListener(ln, 2*preview.DefaultMaxStreams)); !errors.Is(err, http.ErrServerClosed) {
-				fmt.Fprintf(stderr, "kbc watch: preview: %v\n", err)
-			}
-		}()
-		defer func() {
-			pv.Close() // ends the pages' event streams, so Shutdown need not wait for them
-			sctx, cancel := context.WithTimeout(context.Background(), time.Second)
-			defer cancel()
-			hs.Shutdown(sctx)
-		}()
+		defer stop()
 		fmt.Fprintf(news, "preview on http://%s/\n", ln.Addr())
 	}
 	fmt.Fprintf(news, "watching %s (Ctrl-C to stop)\n", src)
 	err = w.Run(ctx, func(ctx context.Context, c watch.Change) error {
-		rebuild(ctx)
+		wb.rebuild(ctx)
 		return nil
 	})
 	if err != nil {
@@ -209,6 +127,119 @@ func watchUntil(ctx context.Context, args []string, stdout, stderr io.Writer) in
 	}
 	fmt.Fprintf(news, "stopped; the last complete bundle is in %s\n", *out)
 	return exitOK
+}
+
+// watchBuilds is what watch carries from one build to the next: the
+// config (read again for each rebuild), the build cache, the warnings
+// already shown, the last result, and the live preview when serving.
+type watchBuilds struct {
+	sf             *sourceFlags
+	src, out       string
+	cfg            *compile.Config
+	sess           *compile.Session
+	asJSON         bool
+	stdout, stderr io.Writer
+
+	reload bool // the first build uses the config read when watch started
+	seen   map[string]bool
+	last   *build.Result
+	pv     *preview.Server
+}
+
+// rebuild builds the bundle, prints what changed, runs the checks and
+// hands the new bundle to the preview. A build that fails leaves the last
+// good bundle in place.
+func (wb *watchBuilds) rebuild(ctx context.Context) {
+	stderr := wb.stderr
+	start := time.Now()
+	now, err := buildTime(os.Getenv("SOURCE_DATE_EPOCH"), time.Now)
+	if err != nil {
+		fmt.Fprintf(stderr, "kbc watch: %v\n", err)
+		return
+	}
+	// The config is read again for each rebuild, so an edit to a kbc.toml
+	// inside SRC applies at once (one outside SRC is not watched: its
+	// edits apply with the next change in SRC).
+	if wb.reload {
+		if wb.cfg, err = wb.sf.load(wb.src); err != nil {
+			fmt.Fprintf(stderr, "kbc watch: %v (the last good bundle stays)\n", err)
+			return
+		}
+	}
+	wb.reload = true
+	bar := newProgress(stderr)
+	r, err := compile.Build(ctx, compile.Job{Src: wb.src, Out: wb.out, Config: wb.cfg, Now: now, FixedTime: os.Getenv("SOURCE_DATE_EPOCH") != "",
+		Tool: "kbc " + version, Force: true, Session: wb.sess, Progress: bar.update, Warn: warnTo(stderr)})
+	bar.finish()
+	fresh := 0
+	if r != nil {
+		for _, p := range r.Problems {
+			if !wb.seen[p] {
+				wb.seen[p] = true
+				fresh++
+				fmt.Fprintln(stderr, p)
+			}
+		}
+	}
+	if err != nil {
+		fmt.Fprintf(stderr, "kbc watch: %v (the last good bundle stays)\n", err)
+		return
+	}
+	res, delta := r.Build, r.Delta
+	ev := watchEvent{Event: "rebuilt", Time: time.Now().UTC().Format(time.RFC3339), Seconds: time.Since(start).Seconds(),
+		Added: len(delta.Added), Changed: len(delta.Changed), Removed: len(delta.Removed), NewWarnings: fresh,
+		BundleID: r.BundleID, Stale: res.Stats.Stale, Expired: res.Stats.Expired, Divergent: res.Stats.Divergent}
+	if wb.last == nil {
+		ev.Event = "built"
+	}
+	for _, f := range r.Failures {
+		ev.FailedChecks = append(ev.FailedChecks, f.Msg)
+		fmt.Fprintf(stderr, "kbc watch: %s\n", f.Msg)
+	}
+	if wb.asJSON {
+		json.NewEncoder(wb.stdout).Encode(ev)
+	} else {
+		fmt.Fprintln(wb.stdout, ev.line(wb.last, res))
+	}
+	wb.last = res
+	if wb.pv != nil {
+		wb.pv.SetWarnings(res.Problems)
+		if err := wb.pv.Reload(wb.out); err != nil {
+			fmt.Fprintf(stderr, "kbc watch: preview: %v\n", err)
+		}
+	}
+}
+
+// servePreview starts the live preview of the bundle on ln, and returns
+// the function that stops it.
+func (wb *watchBuilds) servePreview(ln net.Listener, audiences []string) (stop func(), err error) {
+	pv, err := preview.New(wb.out, audiences...)
+	if err != nil {
+		return nil, err
+	}
+	// The preview shows a hit's source lines from SRC, and the first
+	// build's warnings until the next one.
+	pv.Source = wb.src
+	if wb.last != nil {
+		pv.SetWarnings(wb.last.Problems)
+	}
+	wb.pv = pv
+	// Idle keep-alive connections are closed after a while, and the
+	// connections open at once are capped (beyond the event streams' own
+	// cap, which answers 503), so a flood of connections waits in the
+	// kernel's queue instead of using up file descriptors.
+	hs := &http.Server{Handler: pv.Handler(), ReadHeaderTimeout: 10 * time.Second, IdleTimeout: time.Minute}
+	go func() {
+		if err := hs.Serve(netutil.LimitListener(ln, 2*preview.DefaultMaxStreams)); !errors.Is(err, http.ErrServerClosed) {
+			fmt.Fprintf(wb.stderr, "kbc watch: preview: %v\n", err)
+		}
+	}()
+	return func() {
+		pv.Close() // ends the pages' event streams, so Shutdown need not wait for them
+		sctx, cancel := context.WithTimeout(context.Background(), time.Second)
+		defer cancel()
+		hs.Shutdown(sctx)
+	}, nil
 }
 
 // watchEvent is one build of watch: what --json prints, one per line.
