@@ -1,5 +1,5 @@
 // Command kbc-bench measures kbc on real documentation corpora and prints
-// three tables.
+// four tables.
 //
 // The first has one row per corpus: files, MB, passages, and the time,
 // MB/s and peak resident memory of a clean build (no bundle, no build
@@ -9,14 +9,15 @@
 // RSS is that build's alone. Corpora are copied to a temporary folder
 // first, so the edits never touch the originals.
 //
-// The second is query latency: all corpora together are built into one
-// bundle, and a fresh kbc query process is run -queries times on it (each
-// of a few questions in turn); the table gives the passages and the p50,
-// p95 and max wall time from process start to exit (the results printed),
+// The second and third are the clean build of all corpora together into
+// one bundle (time and peak RSS) and latency on that bundle: fresh kbc
+// query and kbc context processes are run -queries times each (each of a
+// few questions in turn); the table gives the passages and the p50, p95
+// and max wall time from process start to exit (the results printed),
 // and the mean CPU time (user + system) per process, which a busy machine
 // disturbs less than wall time.
 //
-// The third is watch latency on one corpus: kbc watch runs as a child
+// The fourth is watch latency on one corpus: kbc watch runs as a child
 // process, a page is edited -edits times, and for each edit the time from
 // the write to the rebuilt bundle being in place (the watch line that
 // reports it) is taken; p50 and p95 are printed.
@@ -127,30 +128,41 @@ func (b *bench) run(corpora, watchCorpus string, edits int) error {
 // identifier, a question, a phrase from reference docs.
 var latencyQueries = []string{"os.path.join", "how do I undo the last commit", "configuration file format", "install on windows"}
 
-// query builds every corpus under src into one bundle and times fresh kbc
-// query processes on it.
+// query builds every corpus under src into one bundle (its time and peak
+// RSS are the table's first row), then times fresh kbc query and kbc
+// context processes on it.
 func (b *bench) query(src string) error {
 	out := filepath.Join(b.tmp, "out-all")
-	_, _, sum, err := b.build(src, out)
+	sec, rss, sum, err := b.build(src, out)
 	if err != nil {
 		return err
 	}
-	var walls []float64
-	var cpu float64
-	for i := 0; i < b.queries; i++ {
-		cmd := exec.Command(b.kbc, "query", out, latencyQueries[i%len(latencyQueries)], "-k", "10")
-		cmd.Stdout = io.Discard
-		start := time.Now()
-		if err := cmd.Run(); err != nil {
-			return fmt.Errorf("kbc query: %w", err)
+	fmt.Fprintf(b.w, "\n| corpora together | passages | clean build s | peak RSS MB |\n|---|---|---|---|\n")
+	fmt.Fprintf(b.w, "| all | %d | %.2f | %.0f |\n", sum.Stats.Passages, sec, float64(rss)/1024)
+	fmt.Fprintf(b.w, "\n| process start to output | passages | processes | p50 ms | p95 ms | max ms | CPU ms/process |\n|---|---|---|---|---|---|---|\n")
+	for _, c := range []struct {
+		name string
+		args func(q string) []string
+	}{
+		{"kbc query -k 10", func(q string) []string { return []string{"query", out, q, "-k", "10"} }},
+		{"kbc context --budget 1500", func(q string) []string { return []string{"context", out, q, "--budget", "1500"} }},
+	} {
+		var walls []float64
+		var cpu float64
+		for i := 0; i < b.queries; i++ {
+			cmd := exec.Command(b.kbc, c.args(latencyQueries[i%len(latencyQueries)])...)
+			cmd.Stdout = io.Discard
+			start := time.Now()
+			if err := cmd.Run(); err != nil {
+				return fmt.Errorf("%s: %w", c.name, err)
+			}
+			walls = append(walls, time.Since(start).Seconds()*1000)
+			cpu += (cmd.ProcessState.UserTime() + cmd.ProcessState.SystemTime()).Seconds() * 1000
 		}
-		walls = append(walls, time.Since(start).Seconds()*1000)
-		cpu += (cmd.ProcessState.UserTime() + cmd.ProcessState.SystemTime()).Seconds() * 1000
+		sort.Float64s(walls)
+		fmt.Fprintf(b.w, "| %s | %d | %d | %.1f | %.1f | %.1f | %.1f |\n", c.name, sum.Stats.Passages, len(walls),
+			walls[len(walls)/2], walls[min(len(walls)-1, len(walls)*95/100)], walls[len(walls)-1], cpu/float64(len(walls)))
 	}
-	sort.Float64s(walls)
-	fmt.Fprintf(b.w, "\n| query latency | passages | processes | p50 ms | p95 ms | max ms | CPU ms/process |\n|---|---|---|---|---|---|---|\n")
-	fmt.Fprintf(b.w, "| all corpora | %d | %d | %.1f | %.1f | %.1f | %.1f |\n", sum.Stats.Passages, len(walls),
-		walls[len(walls)/2], walls[min(len(walls)-1, len(walls)*95/100)], walls[len(walls)-1], cpu/float64(len(walls)))
 	return nil
 }
 
