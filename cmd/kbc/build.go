@@ -249,10 +249,7 @@ func runBuild(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintf(stderr, "kbc build: %v\n", err)
 		return exitFailure
 	}
-	sum := summary{Source: src, Out: *out, BundleID: res.BundleID, Stats: res.Summary.Stats,
-		BoilerplateTexts: res.Summary.BoilerplateTexts, Staleness: res.Summary.Staleness,
-		Bands: res.Summary.Bands, Rows: res.Summary.Rows, Threshold: res.Summary.Threshold,
-		CatchAtThreshold: res.Summary.CatchAtThreshold, CatchAtHalf: res.Summary.CatchAtHalf,
+	sum := summary{Source: src, Out: *out, BundleID: res.BundleID, Summary: res.Summary,
 		UpToDate: res.UpToDate, Seconds: time.Since(start).Seconds()}
 	if res.Delta != nil {
 		sum.Added, sum.Changed, sum.Removed = len(res.Delta.Added), len(res.Delta.Changed), len(res.Delta.Removed)
@@ -269,22 +266,15 @@ func runBuild(args []string, stdout, stderr io.Writer) int {
 
 // summary is what build prints when it is done.
 type summary struct {
-	Source           string             `json:"source"`
-	Out              string             `json:"out"`
-	BundleID         string             `json:"bundle_id"`
-	Stats            build.Stats        `json:"stats"`
-	BoilerplateTexts int                `json:"boilerplate_texts"`
-	Staleness        build.StatusCounts `json:"staleness"`
-	Bands            int                `json:"lsh_bands"`
-	Rows             int                `json:"lsh_rows"`
-	Threshold        float64            `json:"dup_threshold"`
-	CatchAtThreshold float64            `json:"lsh_catch_at_threshold"`
-	CatchAtHalf      float64            `json:"lsh_catch_at_0_5"`
-	Added            int                `json:"added"`   // passages, against the bundle replaced
-	Changed          int                `json:"changed"` // (see delta.json)
-	Removed          int                `json:"removed"`
-	UpToDate         bool               `json:"up_to_date,omitempty"` // nothing changed: OUT was left as it was
-	Seconds          float64            `json:"seconds"`
+	Source          string  `json:"source"`
+	Out             string  `json:"out"`
+	BundleID        string  `json:"bundle_id"`
+	compile.Summary         // the counts (inline in the JSON)
+	Added           int     `json:"added"`   // passages, against the bundle replaced
+	Changed         int     `json:"changed"` // (see delta.json)
+	Removed         int     `json:"removed"`
+	UpToDate        bool    `json:"up_to_date,omitempty"` // nothing changed: OUT was left as it was
+	Seconds         float64 `json:"seconds"`
 }
 
 // print writes the summary for people; verbose (-v) adds the LSH banding
