@@ -4,6 +4,7 @@ import (
 	"context"
 	"os"
 	"path/filepath"
+	"strconv"
 	"strings"
 	"testing"
 	"testing/fstest"
@@ -14,6 +15,7 @@ import (
 
 	"github.com/kbc-project/kbc/build"
 	"github.com/kbc-project/kbc/internal/browsertest"
+	"github.com/kbc-project/kbc/sources"
 )
 
 // Hostile text from the sources, as a file name, a title, an owner and a
@@ -57,13 +59,10 @@ func hostileBuild(t *testing.T) *build.Result {
 		t.Fatalf("the knowledge base lacks a case: divergent %d, secrets %d, hidden %d, problems %d",
 			len(res.Duplicates.Divergent), res.Secrets.Total, res.Hidden.Total, len(res.Problems))
 	}
-	quoted := false
-	for _, p := range res.Problems {
-		quoted = quoted || strings.Contains(p.Error(), secretValue)
-	}
-	if !quoted {
-		t.Fatal("no warning quotes the key pasted as a date: the page's redaction goes untested")
-	}
+	// build.Run redacts warnings itself (build's TestProblemsCarryNoSecrets);
+	// the page redacts again whatever reaches it, so a warning quoting the
+	// key is added here as one from elsewhere would come.
+	res.Problems = append(res.Problems, &sources.Error{Path: "dated.md", Line: 3, Msg: "front matter updated: date " + strconv.Quote(secretValue) + " is not a date"})
 	return res
 }
 
