@@ -158,7 +158,7 @@ func (e *htmlEmitter) table(i int) {
 	var lines []byte
 	start, end := -1, -1
 	var c htmlCollapser
-	var row func(j int)
+	var row func(j int) //lint:ignore S1021 row calls itself, so it is declared first
 	row = func(j int) {
 		m := &t.Nodes[j]
 		cells, empty := 0, 0 // cells written, empty cells not yet written

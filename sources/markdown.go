@@ -326,7 +326,7 @@ func appendLines(b []byte, n *ast.HTMLBlock, src []byte) []byte {
 
 // anchorIn returns the id (or name) of the last <a> element in raw HTML.
 func anchorIn(raw []byte) string {
-	if bytes.Index(raw, []byte("<a")) < 0 && bytes.Index(raw, []byte("<A")) < 0 {
+	if !bytes.Contains(raw, []byte("<a")) && !bytes.Contains(raw, []byte("<A")) {
 		return ""
 	}
 	_, a, _ := mdHTMLText(raw)
