@@ -7,7 +7,6 @@ import (
 	"io/fs"
 	"os"
 	"path/filepath"
-	"runtime"
 	"sort"
 	"sync"
 
@@ -16,6 +15,7 @@ import (
 	"github.com/kbc-project/kbc/build/buildcache"
 	"github.com/kbc-project/kbc/build/dedupe"
 	"github.com/kbc-project/kbc/build/fresh"
+	"github.com/kbc-project/kbc/internal/parallel"
 )
 
 // The build cache on disk is a folder of files, so that a rebuild after one
@@ -59,25 +59,19 @@ var ErrNoCache = errors.New("no build cache")
 // layout gives another error, and the caller should start a new one.
 func LoadCache(dir string) (*Cache, error) {
 	var (
-		wg     sync.WaitGroup
 		shards [cacheShards]map[string]*CacheEntry
 		keys   [cacheShards]string
 		errs   [cacheShards]error
-		next   = make(chan int, cacheShards)
 	)
-	for i := range cacheShards {
-		next <- i
-	}
-	close(next)
-	for range min(runtime.GOMAXPROCS(0), cacheShards) {
-		wg.Go(func() {
-			for i := range next {
-				shards[i], keys[i], errs[i] = readShard(filepath.Join(dir, shardFile(i)))
-			}
+	done := make(chan struct{})
+	go func() {
+		parallel.For(cacheShards, func(i int) {
+			shards[i], keys[i], errs[i] = readShard(filepath.Join(dir, shardFile(i)))
 		})
-	}
+		close(done)
+	}()
 	state, stateKey, stateErr := readState(filepath.Join(dir, stateFile))
-	wg.Wait()
+	<-done
 
 	missing := 0
 	for i, err := range errs {

@@ -15,6 +15,7 @@ import (
 	"strconv"
 
 	"github.com/kbc-project/kbc/build"
+	"github.com/kbc-project/kbc/internal/parallel"
 )
 
 // A catalog lists a bundle's passages as the delta and the index update
@@ -83,7 +84,7 @@ func contentSum(p *build.Passage) [sha256.Size]byte {
 // contentSums returns contentSum of each passage, on several goroutines.
 func contentSums(ps []build.Passage, order []int) [][sha256.Size]byte {
 	sums := make([][sha256.Size]byte, len(order))
-	forEach(len(order), func(j int) { sums[j] = contentSum(&ps[order[j]]) })
+	parallel.For(len(order), func(j int) { sums[j] = contentSum(&ps[order[j]]) })
 	return sums
 }
 

@@ -11,6 +11,7 @@ import (
 	"github.com/kbc-project/kbc/build"
 	"github.com/kbc-project/kbc/bundle/eval"
 	"github.com/kbc-project/kbc/internal/atomicfile"
+	"github.com/kbc-project/kbc/internal/parallel"
 )
 
 // Level is what a hit counts as when it is judged: its section or its page.
@@ -64,7 +65,7 @@ func (b *Bundle) searchAll(queries []string, level Level, opt EvalOptions) ([][]
 	results := make([][]eval.Result, len(queries))
 	errs := make([]error, len(queries))
 	var done atomic.Int64
-	forEach(len(queries), func(i int) {
+	parallel.For(len(queries), func(i int) {
 		hits, err := b.Search(queries[i], opt.depth())
 		if err != nil {
 			errs[i] = err

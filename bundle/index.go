@@ -9,11 +9,8 @@ import (
 	"fmt"
 	"os"
 	"path/filepath"
-	"runtime"
 	"strconv"
 	"strings"
-	"sync"
-	"sync/atomic"
 	"time"
 
 	"github.com/RoaringBitmap/roaring/v2"
@@ -28,6 +25,7 @@ import (
 	bolt "go.etcd.io/bbolt"
 
 	"github.com/kbc-project/kbc/build"
+	"github.com/kbc-project/kbc/internal/parallel"
 )
 
 // The indexed fields of a passage, in the order Search visits them.
@@ -299,20 +297,7 @@ func buildIndex(dir string, ps []build.Passage, order []int, content string) (*i
 // result does not depend on the scheduling.
 func analyse(ps []build.Passage, batch []int) []index.Document {
 	docs := make([]index.Document, len(batch))
-	var next atomic.Int64
-	var wg sync.WaitGroup
-	for range min(runtime.GOMAXPROCS(0), len(batch)) {
-		wg.Go(func() {
-			for {
-				k := int(next.Add(1)) - 1
-				if k >= len(batch) {
-					return
-				}
-				docs[k] = indexDocument(&ps[batch[k]])
-			}
-		})
-	}
-	wg.Wait()
+	parallel.For(len(batch), func(k int) { docs[k] = indexDocument(&ps[batch[k]]) })
 	return docs
 }
 

@@ -21,6 +21,7 @@ import (
 	"unicode/utf8"
 
 	"github.com/kbc-project/kbc/build"
+	"github.com/kbc-project/kbc/internal/parallel"
 	"github.com/kbc-project/kbc/sources"
 )
 
@@ -133,21 +134,6 @@ func write(out string, in *Input, hook func(tmp string) error) (_ *Manifest, _ *
 	return m, d, nil
 }
 
-// forEach calls fn(i) for each i in [0, n) on GOMAXPROCS goroutines;
-// fn must write only to slot i of whatever it fills.
-func forEach(n int, fn func(i int)) {
-	workers := runtime.GOMAXPROCS(0)
-	var wg sync.WaitGroup
-	for w := range workers {
-		wg.Go(func() {
-			for i := w; i < n; i += workers {
-				fn(i)
-			}
-		})
-	}
-	wg.Wait()
-}
-
 // encodeLines encodes each passage, in order, as one compact line of
 // JSON (appendPassage), on several goroutines; the lines share one buffer
 // per goroutine.
@@ -158,7 +144,8 @@ func encodeLines(ps []build.Passage, order []int) ([][]byte, error) {
 	var wg sync.WaitGroup
 	for w := range workers {
 		wg.Go(func() {
-			// Worker w encodes one contiguous run of passages.
+			// Worker w encodes one contiguous run of passages, whose lines
+			// share one buffer (so not parallel.For; see its package doc).
 			lo, hi := w*len(order)/workers, (w+1)*len(order)/workers
 			// Room for the strings plus the keys and numbers: a passage
 			// rarely needs more, and growing a large buffer costs copies.
@@ -240,7 +227,7 @@ func checkInput(in *Input) error {
 	}
 	// The text checks read every byte: on all cores.
 	badText := make([]bool, len(in.Passages))
-	forEach(len(in.Passages), func(i int) { badText[i] = !validUTF8(&in.Passages[i]) })
+	parallel.For(len(in.Passages), func(i int) { badText[i] = !validUTF8(&in.Passages[i]) })
 	seen := make(map[string]bool, len(in.Passages))
 	for i := range in.Passages {
 		p := &in.Passages[i]
