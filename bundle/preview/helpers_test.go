@@ -172,10 +172,18 @@ func writeResult(res *build.Result, out string) (*bundle.Manifest, error) {
 // the clock at testNow. It returns the server, the docs and the bundle folder.
 func newTestServer(t testing.TB) (*Server, string, string) {
 	t.Helper()
-	src := writeDocs(t, ferryDocs)
+	return serveDocs(t, ferryDocs)
+}
+
+// serveDocs builds docs into a bundle and serves it to a reader cleared
+// for audiences, with the clock at testNow and SRC set for the source
+// view. It returns the server, the docs folder and the bundle folder.
+func serveDocs(t testing.TB, docs map[string]string, audiences ...string) (*Server, string, string) {
+	t.Helper()
+	src := writeDocs(t, docs)
 	out := filepath.Join(t.TempDir(), "bundle")
 	buildBundle(t, src, out)
-	s, err := New(out)
+	s, err := New(out, audiences...)
 	if err != nil {
 		t.Fatal(err)
 	}

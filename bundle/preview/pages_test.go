@@ -30,17 +30,7 @@ func newHarbourServer(t *testing.T, audiences ...string) (*Server, string, strin
 	}
 	docs["safety/drill.md"] = drillPage("safety-desk", "2026-05-01", "40")
 	docs["deck/drill.md"] = drillPage("deck-crew", "2025-01-10", "60")
-	src := writeDocs(t, docs)
-	out := filepath.Join(t.TempDir(), "bundle")
-	buildBundle(t, src, out)
-	s, err := New(out, audiences...)
-	if err != nil {
-		t.Fatal(err)
-	}
-	s.now = func() time.Time { return testNow }
-	s.Source = src
-	t.Cleanup(func() { s.Close() })
-	return s, src, out
+	return serveDocs(t, docs, audiences...)
 }
 
 func TestPages(t *testing.T) {
