@@ -5,10 +5,6 @@ import (
 	"runtime/debug"
 )
 
-// briefCommands are the commands whose process lives tens of milliseconds
-// and allocates little: a search, or a context assembled from one.
-var briefCommands = map[string]bool{"query": true, "context": true}
-
 // briefMemoryLimit is where the collector comes back on for a brief
 // command: far above what one search of a large bundle allocates (about
 // 10 MB on 30,000 passages), low enough to bound a pathological one.
@@ -24,7 +20,9 @@ const briefMemoryLimit = 512 << 20
 // wins. Only main calls it, never the tests, which run every command in
 // one long process.
 func tuneGC(args []string) {
-	if len(args) == 0 || !briefCommands[args[0]] {
+	// The commands whose process lives tens of milliseconds and allocates
+	// little: a search, or a context assembled from one.
+	if len(args) == 0 || (args[0] != "query" && args[0] != "context") {
 		return
 	}
 	if os.Getenv("GOGC") != "" || os.Getenv("GOMEMLIMIT") != "" {
